@@ -178,7 +178,7 @@ mod tests {
             hour_angle_end_rad: end_h * TAU / 24.0,
             integration_s: tau,
             declination_rad: 20f64.to_radians(),
-            latitude_rad: 34.0784f64.to_radians(),
+            latitude_rad: 37.5f64.to_radians(),
             elevation_limit_rad: 15f64.to_radians(),
         }
     }
@@ -219,7 +219,7 @@ mod tests {
 
     #[test]
     fn low_samples_are_flagged_not_dropped() {
-        // δ = 20° at φ = 34.08° sets (e = 15°) near H ≈ ±5.7 h: a ±7 h track has flags at both
+        // δ = 20° at φ = 37.5° sets (e = 15°) near H ≈ ±5.7 h: a ±7 h track has flags at both
         // ends only, and each flag agrees with the elevation.
         let t = Timeline::new(&params(-7.0, 7.0, 300.0)).unwrap();
         assert!(t.flagged[0] && t.flagged[t.len() - 1] && !t.flagged[t.len() / 2]);
