@@ -12,12 +12,8 @@ use std::f64::consts::PI;
 
 const C: f64 = SPEED_OF_LIGHT_M_PER_S;
 
-/// Parallactic angle q = atan2(sin H, tan φ cos δ − sin δ cos H) (spherical astronomy, e.g.
-/// Thompson, Moran & Swenson, ch. 4; cross-checked against pyerfa's hd2pa in
-/// tests/crosscheck/test_beam.py).
-fn parallactic_angle(h: f64, dec: f64, lat: f64) -> f64 {
-    h.sin().atan2(lat.tan() * dec.cos() - dec.sin() * h.cos())
-}
+mod common;
+use common::{find_peak, parallactic_angle};
 
 fn small_aperture() -> ApertureParams {
     ApertureParams { samples_across: 96, supersampling: 4, ..ApertureParams::default() }
@@ -35,28 +31,6 @@ fn beam(aperture: ApertureParams, effects: EffectParams, pas: Vec<f64>, n_ant: u
         ..DishBeamParams::default()
     };
     DishBeam::new(&params, pas, times).unwrap()
-}
-
-/// Location (l, m) of the maximum of `f` near `guess`, by repeated grid refinement (21×21
-/// points, step shrinking 4× per round): a slow but obviously correct peak finder.
-fn find_peak(f: impl Fn(f64, f64) -> f64, guess: (f64, f64), width: f64) -> (f64, f64) {
-    let (mut cl, mut cm) = guess;
-    let mut step = width / 10.0;
-    for _ in 0..12 {
-        let mut best = (f64::NEG_INFINITY, cl, cm);
-        for i in -10..=10 {
-            for j in -10..=10 {
-                let (l, m) = (cl + i as f64 * step, cm + j as f64 * step);
-                let v = f(l, m);
-                if v > best.0 {
-                    best = (v, l, m);
-                }
-            }
-        }
-        (cl, cm) = (best.1, best.2);
-        step /= 4.0;
-    }
-    (cl, cm)
 }
 
 #[test]
