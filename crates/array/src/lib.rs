@@ -62,7 +62,7 @@ pub use channels::Channels;
 pub use error::ArrayError;
 pub use generate::{log_spiral, random_disc, LogSpiralParams, RandomDiscParams};
 pub use layout::{parse_enu_text, Layout};
-pub use observation::{Observation, ObservationParams, Row};
+pub use observation::{Observation, ObservationParams, Row, MAX_ROWS};
 pub use site::enu_to_equatorial_xyz;
 pub use timeline::{
     Timeline, TimelineParams, HOUR_ANGLE_RATE_RAD_PER_S, MAX_TIME_SAMPLES,

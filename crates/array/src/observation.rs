@@ -6,6 +6,10 @@ use crate::timeline::{Timeline, TimelineParams};
 use crate::uvw::UvwRotation;
 use std::f64::consts::{FRAC_PI_2, TAU};
 
+/// Most rows (baselines × time samples) an observation may have: 1e8 rows are 5.6 GB of [`Row`]s
+/// before any visibility is stored, so more is almost certainly a mistyped parameter.
+pub const MAX_ROWS: usize = 100_000_000;
+
 /// One row of an observation: one baseline at one time sample.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Row {
@@ -75,7 +79,8 @@ impl Observation {
     /// Build the observation: the timeline, the channels and the uvw of every row.
     ///
     /// Errors are those of [`Timeline::new`] and [`Channels::from_band`], plus
-    /// [`ArrayError::InvalidParameter`] for a right ascension outside [0, 2π).
+    /// [`ArrayError::InvalidParameter`] for a right ascension outside [0, 2π) and
+    /// [`ArrayError::InvalidCount`] for more than [`MAX_ROWS`] rows.
     pub fn new(params: &ObservationParams) -> Result<Self, ArrayError> {
         let p = params;
         check_range("phase_centre_ra_rad", p.phase_centre_ra_rad, 0.0, TAU, "[0, 2π)")?;
@@ -96,6 +101,15 @@ impl Observation {
             elevation_limit_rad: p.elevation_limit_rad,
         })?;
         let channels = Channels::from_band(p.band_min_hz, p.band_max_hz, p.n_channels)?;
+        let n_ant = p.layout.n_antennas();
+        let n_rows = (n_ant * (n_ant - 1) / 2).saturating_mul(timeline.len());
+        if n_rows > MAX_ROWS {
+            return Err(ArrayError::InvalidCount {
+                name: "rows (baselines × time samples)",
+                value: n_rows,
+                expected: "at most MAX_ROWS (1e8); use fewer antennas or longer integrations",
+            });
+        }
         let antennas_enu_m = p.layout.antennas_enu_m().to_vec();
         let rows = build_rows(&antennas_enu_m, p.latitude_rad, p.phase_centre_dec_rad, &timeline);
         Ok(Self {
@@ -147,10 +161,18 @@ impl Observation {
             .then(|| antenna1 * (2 * n - antenna1 - 1) / 2 + (antenna2 - antenna1 - 1))
     }
 
-    /// Index into [`Self::rows`] of baseline (a1, a2) at `time_index`.
+    /// Index into [`Self::rows`] of baseline (a1, a2) at `time_index` (for rows in the order
+    /// [`Self::new`] builds them).
     pub fn row_index(&self, antenna1: usize, antenna2: usize, time_index: usize) -> Option<usize> {
         let b = self.baseline_index(antenna1, antenna2)?;
         (time_index < self.n_times()).then(|| b * self.n_times() + time_index)
+    }
+
+    /// The rows of baseline (a1, a2), one per time sample in time order: a contiguous slice,
+    /// since rows are ordered by baseline, then time.
+    pub fn baseline_rows(&self, antenna1: usize, antenna2: usize) -> Option<&[Row]> {
+        let start = self.row_index(antenna1, antenna2, 0)?;
+        self.rows.get(start..start + self.n_times())
     }
 }
 

@@ -2,7 +2,7 @@
 //! the uv-track geometry of Thompson, Moran & Swenson (3rd ed., §4.2), coverage helpers.
 use beamfloor_array::{
     enu_to_equatorial_xyz, random_disc, uvw_m, ArrayError, Layout, Observation, ObservationParams,
-    RandomDiscParams,
+    RandomDiscParams, Timeline, TimelineParams, MAX_ROWS,
 };
 use beamfloor_core::SPEED_OF_LIGHT_M_PER_S;
 use std::f64::consts::TAU;
@@ -26,6 +26,18 @@ fn params(layout: Layout, dec_deg: f64, hours: f64) -> ObservationParams {
 fn small_layout() -> Layout {
     let text = "# test array\n0 0 0\n250 0 1.5\n-40 310 -2\n600 -120 0.5\n35 -480 3\n";
     Layout::from_text(text, 20.0).unwrap()
+}
+
+fn obs_times(p: &ObservationParams) -> usize {
+    let t = Timeline::new(&TimelineParams {
+        hour_angle_start_rad: p.hour_angle_start_rad,
+        hour_angle_end_rad: p.hour_angle_end_rad,
+        integration_s: p.integration_s,
+        declination_rad: p.phase_centre_dec_rad,
+        latitude_rad: p.latitude_rad,
+        elevation_limit_rad: p.elevation_limit_rad,
+    });
+    t.unwrap().len()
 }
 
 fn norm(v: [f64; 3]) -> f64 {
@@ -66,6 +78,13 @@ fn rows_are_ordered_by_baseline_then_time_with_direct_uvw() {
             }
         }
     }
+    let slice = obs.baseline_rows(1, 3).unwrap();
+    assert_eq!(slice.len(), n_t);
+    assert!(slice
+        .iter()
+        .enumerate()
+        .all(|(t, r)| (r.antenna1, r.antenna2, r.time_index) == (1, 3, t)));
+    assert_eq!(obs.baseline_rows(3, 1), None);
     assert_eq!(obs.baseline_index(3, 3), None);
     assert_eq!(obs.baseline_index(4, 2), None);
     assert_eq!(obs.row_index(0, 1, n_t), None);
@@ -189,6 +208,17 @@ fn observation_from_a_generated_layout_and_its_errors() {
         Observation::new(&p),
         Err(ArrayError::InvalidParameter { name: "phase_centre_ra_rad", .. })
     ));
+    // 20 antennas (190 baselines) × 957 k samples of 0.03 s = 1.8e8 rows > MAX_ROWS.
+    let line = Layout::new((0..20).map(|i| [30.0 * i as f64, 0.0, 0.0]).collect(), 20.0).unwrap();
+    let mut p = params(line, -60.0, 4.0);
+    p.integration_s = 0.03;
+    match Observation::new(&p) {
+        Err(ArrayError::InvalidCount { value, .. }) => {
+            assert_eq!(value, 190 * obs_times(&p));
+            assert!(value > MAX_ROWS);
+        }
+        other => panic!("unexpected {other:?}"),
+    }
     let mut p = params(layout, -60.0, 4.0);
     p.band_max_hz = p.band_min_hz;
     assert!(matches!(Observation::new(&p), Err(ArrayError::Band { .. })));
