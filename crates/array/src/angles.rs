@@ -52,7 +52,7 @@ mod tests {
 
     #[test]
     fn parallactic_angle_check_values() {
-        // Check values from the task brief, recomputed by hand from the SOFA hd2pa formula
+        // Worked check values, evaluated by hand from the SOFA hd2pa formula
         // q = atan2(cos φ sin H, sin φ cos δ − cos φ sin δ cos H); they are quoted to 1e-4°, so
         // the tolerance is half a unit in the last quoted digit.
         assert!((pa_deg(30.0, 20.0) - 55.8231).abs() < 5e-5, "{}", pa_deg(30.0, 20.0));

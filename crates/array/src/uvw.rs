@@ -54,7 +54,7 @@ mod tests {
 
     #[test]
     fn check_value() {
-        // Task check value for TMS eq. 4.1: (X, Y, Z) = (100, 200, 300) m, H = 30°, δ = 45° →
+        // Worked example of TMS eq. 4.1: (X, Y, Z) = (100, 200, 300) m, H = 30°, δ = 45° →
         // (223.2051, 221.6055, 202.6586) m; quoted to 1e-4 m, so a 1e-4 m tolerance. By hand,
         // with sin δ = cos δ = √2/2: u = 100·½ + 200·√3/2 = 223.2051;
         // v = √2/2·(−100·√3/2 + 200·½ + 300) = 221.6055; w = √2/2·(100·√3/2 − 200·½ + 300) =
