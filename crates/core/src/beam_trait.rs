@@ -22,9 +22,12 @@ pub trait VoltageBeam: Sync {
         pol: Pol,
         l: f64,
         m: f64,
-    ) -> num_complex::Complex64;
+    ) -> Complex64;
 
     /// The baseline product E_i E_j* towards (l, m) (what a parallel-hand correlation sees).
+    // The arguments are the coordinates of one sample of a 6-dimensional function; bundling them
+    // into a struct would only move the same list elsewhere.
+    #[allow(clippy::too_many_arguments)]
     fn baseline_product(
         &self,
         antenna_i: usize,
