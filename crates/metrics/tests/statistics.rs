@@ -31,6 +31,10 @@ fn rms_of_unit_gaussian_noise_is_one_within_sampling_error() {
     let s = masked_statistics(&noise, &mask, &g, "noise").unwrap();
     let n = (N_SIDE * N_SIDE) as f64;
     let bound = 3.0 / (2.0 * n).sqrt();
+    eprintln!(
+        "256² N(0,1): rms {} std {} mean {} (bound {bound})",
+        s.rms_jy_per_beam, s.rms_mean_removed_jy_per_beam, s.mean_jy_per_beam
+    );
     assert_eq!(s.n_pixels, N_SIDE * N_SIDE);
     assert!((s.rms_jy_per_beam - 1.0).abs() < bound, "rms {}", s.rms_jy_per_beam);
     assert!((s.rms_mean_removed_jy_per_beam - 1.0).abs() < bound);
@@ -52,6 +56,11 @@ fn mad_sigma_is_consistent_for_gaussian_noise() {
     let noise = gaussian_noise(N_SIDE, N_SIDE, 1.0, 2);
     let s = masked_statistics(&noise, &mask, &g, "noise").unwrap();
     let n = (N_SIDE * N_SIDE) as f64;
+    eprintln!(
+        "256² N(0,1): MAD sigma {} (bound {})",
+        s.mad_sigma_jy_per_beam,
+        3.0 * (1.3605 / n).sqrt()
+    );
     assert!((s.mad_sigma_jy_per_beam - 1.0).abs() < 3.0 * (1.3605 / n).sqrt());
     // Φ⁻¹(3/4) = 0.6744897501960817 (quantile of the standard normal; Abramowitz & Stegun
     // table 26.5, also scipy.stats.norm.ppf(0.75)): the constant is its reciprocal.
