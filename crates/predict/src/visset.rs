@@ -103,7 +103,11 @@ impl VisSet {
         };
         shape("antenna2", &[self.antenna2.len()], vec![nr])?;
         shape("time_index", &[self.time_index.len()], vec![nr])?;
-        shape("parallactic_angles_rad", &[self.parallactic_angles_rad.len()], vec![self.n_times()])?;
+        shape(
+            "parallactic_angles_rad",
+            &[self.parallactic_angles_rad.len()],
+            vec![self.n_times()],
+        )?;
         shape("uvw_m", self.uvw_m.shape(), vec![nr, 3])?;
         shape("data", self.data.shape(), vec![nr, nc, np])?;
         shape("weights", self.weights.shape(), vec![nr, nc, np])?;
