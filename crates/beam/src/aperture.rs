@@ -121,33 +121,63 @@ impl ApertureParams {
 
     /// The continuous aperture field A(x, y) (0 where blocked or off the dish).
     pub fn field(&self, x: f64, y: f64) -> f64 {
-        let r2 = x * x + y * y;
-        let radius = 0.5 * self.dish_diameter_m;
-        let rb = 0.5 * self.blockage_diameter_m;
-        if r2 > radius * radius || r2 < rb * rb {
-            return 0.0;
-        }
-        let legs = &self.legs;
-        if legs.count > 0 && legs.width_m > 0.0 {
-            let half_w = 0.5 * legs.width_m;
-            for k in 0..legs.count {
-                let a = legs.first_angle_rad + 2.0 * PI * k as f64 / legs.count as f64;
-                let (ux, uy) = a.sin_cos();
-                let along = x * ux + y * uy;
-                let across = x * uy - y * ux;
-                if along > 0.0 && across.abs() <= half_w {
-                    return 0.0;
-                }
-            }
-        }
-        match self.taper {
-            Taper::Uniform => 1.0,
+        ApertureShape::new(self).field(x, y)
+    }
+}
+
+/// [`ApertureParams`] with everything the field needs precomputed (leg directions, pedestals).
+struct ApertureShape {
+    radius2: f64,
+    blockage2: f64,
+    legs: Vec<(f64, f64)>,
+    half_width: f64,
+    quad: Option<(f64, f64)>,
+}
+
+impl ApertureShape {
+    fn new(p: &ApertureParams) -> Self {
+        let radius = 0.5 * p.dish_diameter_m;
+        let legs = if p.legs.width_m > 0.0 {
+            (0..p.legs.count)
+                .map(|k| {
+                    (p.legs.first_angle_rad + 2.0 * PI * k as f64 / p.legs.count as f64).sin_cos()
+                })
+                .collect()
+        } else {
+            Vec::new()
+        };
+        let quad = match p.taper {
+            Taper::Uniform => None,
             Taper::ParabolicOnPedestal { edge_taper_db_x, edge_taper_db_y } => {
                 let cx = 10f64.powf(-edge_taper_db_x / 20.0);
                 let cy = 10f64.powf(-edge_taper_db_y / 20.0);
-                let r2n = radius * radius;
-                1.0 - (1.0 - cx) * x * x / r2n - (1.0 - cy) * y * y / r2n
+                Some(((1.0 - cx) / (radius * radius), (1.0 - cy) / (radius * radius)))
             }
+        };
+        Self {
+            radius2: radius * radius,
+            blockage2: 0.25 * p.blockage_diameter_m * p.blockage_diameter_m,
+            legs,
+            half_width: 0.5 * p.legs.width_m,
+            quad,
+        }
+    }
+
+    fn field(&self, x: f64, y: f64) -> f64 {
+        let r2 = x * x + y * y;
+        if r2 > self.radius2 || r2 < self.blockage2 {
+            return 0.0;
+        }
+        for &(ux, uy) in &self.legs {
+            let along = x * ux + y * uy;
+            let across = x * uy - y * ux;
+            if along > 0.0 && across.abs() <= self.half_width {
+                return 0.0;
+            }
+        }
+        match self.quad {
+            None => 1.0,
+            Some((ax, ay)) => 1.0 - ax * x * x - ay * y * y,
         }
     }
 }
@@ -181,13 +211,14 @@ impl ApertureSamples {
         let coords_m: Vec<f64> = (0..n).map(|i| (i as f64 + 0.5 - n as f64 / 2.0) * h).collect();
         let sub: Vec<f64> = (0..s).map(|j| ((j as f64 + 0.5) / s as f64 - 0.5) * h).collect();
         let cell_area = h * h / (s * s) as f64;
+        let shape = ApertureShape::new(params);
         let mut weights = vec![0.0; n * n];
         for (iy, &y) in coords_m.iter().enumerate() {
             for (ix, &x) in coords_m.iter().enumerate() {
                 let mut acc = 0.0;
                 for &dy in &sub {
                     for &dx in &sub {
-                        acc += params.field(x + dx, y + dy);
+                        acc += shape.field(x + dx, y + dy);
                     }
                 }
                 weights[iy * n + ix] = acc * cell_area;

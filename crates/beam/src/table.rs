@@ -8,6 +8,9 @@ use std::f64::consts::PI;
 /// Largest number of table nodes per axis (memory guard: 8001² complex values = 1 GB).
 pub const MAX_TABLE_NODES: usize = 8001;
 
+/// Largest imaginary part for which a tabulated pattern is treated as real.
+const REAL_THRESHOLD: f64 = 1e-13;
+
 /// How the voltage pattern is tabulated and interpolated.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct TableParams {
@@ -42,12 +45,17 @@ impl TableParams {
 /// polynomials.
 ///
 /// Nodes are p_i = (i − c) Δ for i = 0..2c (so p = 0 is a node); values are stored q-row-major
-/// (`data[j · n + i]` at (p_i, q_j)). The table is filled with the *same* direct aperture sum as
+/// (`[j · n + i]` at (p_i, q_j)), real and imaginary parts apart; when the aperture is point-symmetric
+/// the pattern is real and the imaginary part (then below 1e-13 everywhere, rounding of the
+/// sum) is dropped, halving the interpolation work. The table is filled with the *same* direct aperture sum as
 /// [`ApertureSamples::direct_pattern`], evaluated separably (first along y, then along x), so the
 /// only difference between the two is interpolation.
 #[derive(Clone, Debug)]
 pub struct PatternTable {
     data: Vec<Complex64>,
+    re: Vec<f64>,
+    /// Empty when the pattern is real.
+    im: Vec<f64>,
     n: usize,
     centre: usize,
     delta: f64,
@@ -119,7 +127,11 @@ impl PatternTable {
                 })
             })
             .collect();
-        Ok(Self { data, n, centre, delta, inv_delta: 1.0 / delta, taps })
+        let re = data.iter().map(|v| v.re).collect();
+        let max_im = data.iter().map(|v| v.im.abs()).fold(0.0, f64::max);
+        let im =
+            if max_im <= REAL_THRESHOLD { Vec::new() } else { data.iter().map(|v| v.im).collect() };
+        Ok(Self { data, re, im, n, centre, delta, inv_delta: 1.0 / delta, taps })
     }
 
     /// Node spacing Δ in p (cycles per metre).
@@ -150,14 +162,14 @@ impl PatternTable {
 
     #[inline(always)]
     fn locate<const N: usize>(&self, p: f64) -> Option<(usize, f64)> {
+        // u ≥ 0 on every usable position, where truncation is floor (and cheaper than a call).
         let u = p * self.inv_delta + self.centre as f64;
-        let fu = u.floor();
-        let start = fu - first_node_offset(N) as f64;
-        if start >= 0.0 && start + (N as f64) <= self.n as f64 {
-            Some((start as usize, u - fu))
-        } else {
-            None
+        if !(u >= 0.0 && u < self.n as f64) {
+            return None;
         }
+        let iu = u as usize;
+        let start = iu.checked_sub(first_node_offset(N) as usize)?;
+        (start + N <= self.n).then_some((start, u - iu as f64))
     }
 
     #[inline(always)]
@@ -167,19 +179,15 @@ impl PatternTable {
         };
         let wu = weights::<N>(tu);
         let wv = weights::<N>(tv);
-        let (mut re, mut im) = (0.0, 0.0);
-        for (b, &wb) in wv.iter().enumerate() {
-            let start = (j0 + b) * self.n + i0;
-            let row = &self.data[start..start + N];
-            let (mut rr, mut ri) = (0.0, 0.0);
-            for (v, &wa) in row.iter().zip(&wu) {
-                rr += v.re * wa;
-                ri += v.im * wa;
-            }
-            re += rr * wb;
-            im += ri * wb;
-        }
+        let re = combine::<N>(&self.re, self.n, i0, j0, &wu, &wv);
+        let im =
+            if self.im.is_empty() { 0.0 } else { combine::<N>(&self.im, self.n, i0, j0, &wu, &wv) };
         Complex64::new(re, im)
+    }
+
+    /// True when the tabulated pattern is real (point-symmetric aperture).
+    pub fn is_real(&self) -> bool {
+        self.im.is_empty()
     }
 
     /// Interpolated E and its gradient (∂E/∂p, ∂E/∂q), from the analytic derivative of the
@@ -215,6 +223,32 @@ impl PatternTable {
         }
         (v, gp * self.inv_delta, gq * self.inv_delta)
     }
+}
+
+/// Σ_b wv[b] Σ_a wu[a] t[(j0 + b) n + i0 + a]: the N rows are first combined along q into N
+/// column sums (independent accumulators, which vectorise), then along p.
+#[inline(always)]
+fn combine<const N: usize>(
+    t: &[f64],
+    n: usize,
+    i0: usize,
+    j0: usize,
+    wu: &[f64; N],
+    wv: &[f64; N],
+) -> f64 {
+    let mut col = [0.0; N];
+    for (b, &wb) in wv.iter().enumerate() {
+        let start = (j0 + b) * n + i0;
+        let row: &[f64; N] = t[start..start + N].try_into().expect("N-element row");
+        for a in 0..N {
+            col[a] += row[a] * wb;
+        }
+    }
+    let mut acc = 0.0;
+    for a in 0..N {
+        acc += col[a] * wu[a];
+    }
+    acc
 }
 
 #[cfg(test)]
