@@ -1,0 +1,5 @@
+//! Integration tests of the deconvolution crate, grouped by area.
+mod clean;
+mod dft;
+mod major;
+mod mfs;
