@@ -3,7 +3,7 @@
 
 use beamfloor_beam::{
     ApertureParams, DishBeam, DishBeamParams, EffectParams, PointingParams, RippleParams,
-    SquintParams,
+    SquintParams, TableParams,
 };
 use beamfloor_core::{derive_seed, Pol, SeedPurpose, VoltageBeam};
 use criterion::{criterion_group, Criterion};
@@ -96,6 +96,16 @@ fn cpu_time_report() {
         ("no ripple", {
             let p = DishBeamParams {
                 effects: beam.params().effects.without(beamfloor_beam::Effect::Ripple),
+                ..*beam.params()
+            };
+            let pas: Vec<f64> =
+                (0..N_TIME).map(|t| -1.2 + 2.4 * t as f64 / N_TIME as f64).collect();
+            DishBeam::new(&p, pas, vec![0.0; N_TIME]).expect("beam")
+        }),
+        ("no ripple, 4-point Lagrange at 48x oversampling", {
+            let p = DishBeamParams {
+                effects: beam.params().effects.without(beamfloor_beam::Effect::Ripple),
+                table: TableParams { oversampling: 48.0, interpolation_points: 4 },
                 ..*beam.params()
             };
             let pas: Vec<f64> =

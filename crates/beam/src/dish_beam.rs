@@ -69,6 +69,7 @@ pub struct DishBeam {
     pub(crate) intrinsic: SampledProfile,
     pub(crate) stokes_i: SampledProfile,
     half_power_rho: f64,
+    max_offset_rad: f64,
 }
 
 const INV_C: f64 = 1.0 / SPEED_OF_LIGHT_M_PER_S;
@@ -188,6 +189,7 @@ impl DishBeam {
             intrinsic,
             stokes_i,
             half_power_rho,
+            max_offset_rad: max_offset,
         })
     }
 
@@ -213,6 +215,15 @@ impl DishBeam {
         } else {
             self.params.ref_freq_hz
         }
+    }
+
+    /// Largest distance from the phase centre (rad) at which every antenna, time and receptor
+    /// is tabulated at `freq_hz` (beyond it [`VoltageBeam::voltage`] may return 0); at least
+    /// √2 · `max_abs_lm` for frequencies up to `max_freq_hz`.
+    pub fn max_radius_rad(&self, freq_hz: f64) -> f64 {
+        let shift = self.squint_table[0].hypot(self.squint_table[1]);
+        let rho = self.table.covered_half_width() - shift;
+        rho * SPEED_OF_LIGHT_M_PER_S / self.pattern_freq_hz(freq_hz) - self.max_offset_rad
     }
 
     /// Ripple gain g(ν) = 1 + a cos(2π ν / P + φ) (1 when ripple is off).

@@ -33,6 +33,8 @@
 //! assert!((beam.power(0, 0, 1.4e9, Pol::R, r50, 0.0) - 0.5).abs() < 0.02);
 //! ```
 
+#![deny(missing_docs)]
+
 mod aperture;
 mod average;
 mod dish_beam;

@@ -287,6 +287,12 @@ mod tests {
             crate::Taper::ParabolicOnPedestal { edge_taper_db_x: 8.0, edge_taper_db_y: 14.0 };
         let err = max_error_vs_direct(&ap, &TableParams::default(), 400);
         assert!(err < 1e-7, "max |table − direct| = {err:e}");
+        // The default, point-symmetric aperture takes the real-table path: same budget.
+        let sym = ApertureParams { samples_across: 64, ..ApertureParams::default() };
+        let s = ApertureSamples::new(&sym).unwrap();
+        assert!(PatternTable::new(&s, 12.0, 0.3, &TableParams::default()).unwrap().is_real());
+        let err_sym = max_error_vs_direct(&sym, &TableParams::default(), 400);
+        assert!(err_sym < 1e-7, "symmetric aperture: {err_sym:e}");
         // A coarse table must be worse, so the test can fail.
         let coarse = TableParams { oversampling: 3.0, interpolation_points: 4 };
         let err_c = max_error_vs_direct(&ap, &coarse, 100);

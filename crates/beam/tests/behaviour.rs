@@ -102,6 +102,7 @@ fn four_legs_rotated_by_90_degrees_is_unchanged_but_45_is_not() {
         }
     }
     assert!(d90 < 3e-7, "90° difference {d90:e}");
+    assert!(b.max_radius_rad(2.0e9) >= std::f64::consts::SQRT_2 * 0.02);
     assert!(d45 > 1e-3, "45° difference {d45:e}");
 }
 
