@@ -3,17 +3,17 @@
 mod dft;
 
 use beamfloor_deconv::{
-    fit_restoring_beam, restore, run_minor_cycle, spectral_maps, BeamFitParams, CleanParams, MinorCyclePlan,
-    SpectralMapParams,
+    fit_restoring_beam, restore, run_minor_cycle, spectral_maps, BeamFitParams, CleanParams,
+    MinorCyclePlan, SpectralMapParams,
 };
 use ndarray::Array2;
 use serde_json::json;
 use std::path::PathBuf;
 
 fn export_dir() -> PathBuf {
-    std::env::var_os("BEAMFLOOR_CROSSCHECK_DIR")
-        .map(PathBuf::from)
-        .unwrap_or_else(|| PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("../../target/crosscheck"))
+    std::env::var_os("BEAMFLOOR_CROSSCHECK_DIR").map(PathBuf::from).unwrap_or_else(|| {
+        PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("../../target/crosscheck")
+    })
 }
 
 #[test]
@@ -32,12 +32,23 @@ fn export_mfs_and_beam() {
     for nterms in 2..=4 {
         let plan = MinorCyclePlan::multi_term(&psfs[..2 * nterms - 1], nterms).unwrap();
         let mut residuals = dft::image_taylor(&vis, &bl, &freqs, nu0, nterms, &g);
-        let mut model: Vec<Array2<f64>> = (0..nterms).map(|_| Array2::zeros((g.ny, g.nx))).collect();
-        let params = CleanParams { loop_gain: 0.1, threshold: 1e-3, max_iterations: 500, ..Default::default() };
+        let mut model: Vec<Array2<f64>> =
+            (0..nterms).map(|_| Array2::zeros((g.ny, g.nx))).collect();
+        let params = CleanParams {
+            loop_gain: 0.1,
+            threshold: 1e-3,
+            max_iterations: 500,
+            ..Default::default()
+        };
         run_minor_cycle(&plan, &mut residuals, &mut model, &params, None).unwrap();
-        let restored = restore(&model, &residuals, plan.point_hessian(), &beam, g.cell_rad).unwrap();
-        let maps =
-            spectral_maps(&restored.images, &restored.residual_coefficients, &SpectralMapParams::default()).unwrap();
+        let restored =
+            restore(&model, &residuals, plan.point_hessian(), &beam, g.cell_rad).unwrap();
+        let maps = spectral_maps(
+            &restored.images,
+            &restored.residual_coefficients,
+            &SpectralMapParams::default(),
+        )
+        .unwrap();
         let c = [g.ny / 2, g.nx / 2];
         cleaned.push(json!({
             "nterms": nterms,
@@ -48,8 +59,9 @@ fn export_mfs_and_beam() {
     // The PSF's central 41×41 pixels for an independent main-lobe fit.
     let (py, px) = psfs[0].dim();
     let half = 20;
-    let patch: Vec<Vec<f64>> =
-        (py / 2 - half..=py / 2 + half).map(|y| (px / 2 - half..=px / 2 + half).map(|x| psfs[0][[y, x]]).collect()).collect();
+    let patch: Vec<Vec<f64>> = (py / 2 - half..=py / 2 + half)
+        .map(|y| (px / 2 - half..=px / 2 + half).map(|x| psfs[0][[y, x]]).collect())
+        .collect();
     let out = json!({
         "frequencies_hz": freqs,
         "ref_freq_hz": nu0,
