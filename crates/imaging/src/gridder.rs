@@ -1,0 +1,290 @@
+//! The gridding and degridding passes of [`GridPlan`]: ES-kernel spreading on the padded grid,
+//! one FFT per output image and w plane, and the grid correction.
+use crate::error::ImagingError;
+use crate::operator::{check_degrid_args, check_grid_args, GridOutput, ImagingOperator};
+use crate::params::w_range_of;
+use crate::plan::GridPlan;
+use beamfloor_core::{ImageGeometry, SPEED_OF_LIGHT_M_PER_S};
+use beamfloor_predict::VisSet;
+use ndarray::{Array2, Array3, ArrayView3};
+use num_complex::Complex64;
+use rayon::prelude::*;
+use std::f64::consts::PI;
+use std::ops::Range;
+
+const ZERO: Complex64 = Complex64 { re: 0.0, im: 0.0 };
+
+/// Kernel taps and wrapped grid indices of one sample (scratch reused across samples).
+struct Footprint {
+    kx: Vec<f64>,
+    ky: Vec<f64>,
+    ix: Vec<usize>,
+    iy: Vec<usize>,
+}
+
+impl Footprint {
+    fn new(w: usize) -> Self {
+        Self { kx: vec![0.0; w], ky: vec![0.0; w], ix: vec![0; w], iy: vec![0; w] }
+    }
+}
+
+impl GridPlan {
+    /// Fill `fp` for a sample at (u, v) wavelengths.
+    #[inline]
+    fn footprint(&self, u: f64, v: f64, fp: &mut Footprint) {
+        let cell = self.geometry.cell_rad;
+        let sx = -u * cell * self.pad_nx as f64;
+        let sy = v * cell * self.pad_ny as f64;
+        let gx = self.kernel.taps(sx, &mut fp.kx);
+        let gy = self.kernel.taps(sy, &mut fp.ky);
+        let (px, py) = (self.pad_nx as i64, self.pad_ny as i64);
+        for (i, (a, b)) in fp.ix.iter_mut().zip(fp.iy.iter_mut()).enumerate() {
+            *a = (gx + i as i64).rem_euclid(px) as usize;
+            *b = ((gy + i as i64).rem_euclid(py) as usize) * self.pad_nx;
+        }
+    }
+
+    /// Channels of a row with `w_m` metres that touch plane `p`, i.e. whose plane coordinate s
+    /// satisfies p − W/2 < s ≤ p + W/2 (s is monotonic in frequency, so they are contiguous).
+    fn channels_on_plane(&self, w_m: f64, freqs: &[f64], p: usize) -> Range<usize> {
+        let Some(planes) = self.planes else { return 0..freqs.len() };
+        let half = 0.5 * self.kernel.support() as f64;
+        let (lo_s, hi_s) = (p as f64 - half, p as f64 + half);
+        let s = |f: &f64| planes.coordinate(w_m * f / SPEED_OF_LIGHT_M_PER_S);
+        if w_m >= 0.0 {
+            freqs.partition_point(|f| s(f) <= lo_s)..freqs.partition_point(|f| s(f) <= hi_s)
+        } else {
+            let a = freqs.partition_point(|f| s(f) > hi_s);
+            let b = freqs.partition_point(|f| s(f) > lo_s);
+            a..b.max(a)
+        }
+    }
+
+    /// Weight of plane `p` for a sample at `w` wavelengths (1 when w is ignored).
+    #[inline]
+    fn plane_weight(&self, w: f64, p: usize) -> f64 {
+        match self.planes {
+            Some(planes) => {
+                let half = 0.5 * self.kernel.support() as f64;
+                self.kernel.phi((p as f64 - planes.coordinate(w)) / half)
+            }
+            None => 1.0,
+        }
+    }
+
+    /// Per-pixel factor of plane `p`: grid correction times the phase screen exp(sign 2πi w_p x).
+    fn screen(&self, p: usize, sign: f64) -> Vec<Complex64> {
+        let corr = self.inverse_correction.as_slice().expect("plan arrays are contiguous");
+        match self.planes {
+            None => corr.iter().map(|&c| Complex64::new(c, 0.0)).collect(),
+            Some(planes) => {
+                let wp = planes.w0 + p as f64 * planes.dw;
+                let x = self.n_minus_1.as_slice().expect("plan arrays are contiguous");
+                corr.par_iter()
+                    .zip(x.par_iter())
+                    .map(|(&c, &x)| Complex64::from_polar(c, sign * 2.0 * PI * wp * x))
+                    .collect()
+            }
+        }
+    }
+
+    /// Offset into the padded grid of image pixel (ix, iy): index j = pixel − centre, wrapped.
+    #[inline]
+    fn grid_index(&self, ix: usize, iy: usize) -> usize {
+        let (nx, ny) = (self.geometry.nx as i64, self.geometry.ny as i64);
+        let gx = (ix as i64 - nx / 2).rem_euclid(self.pad_nx as i64) as usize;
+        let gy = (iy as i64 - ny / 2).rem_euclid(self.pad_ny as i64) as usize;
+        gy * self.pad_nx + gx
+    }
+
+    fn check_w(&self, vis: &VisSet) -> Result<(), ImagingError> {
+        if self.planes.is_none() {
+            return Ok(());
+        }
+        let r = w_range_of(vis.uvw_m.column(2).iter().copied(), &vis.frequencies_hz);
+        for w in [r.min_lambda, r.max_lambda] {
+            if !self.w_range.contains(w) {
+                return Err(ImagingError::WOutOfRange {
+                    w_lambda: w,
+                    min_lambda: self.w_range.min_lambda,
+                    max_lambda: self.w_range.max_lambda,
+                });
+            }
+        }
+        Ok(())
+    }
+
+    /// Spread the samples of `rows` touching plane `p` onto one grid per output.
+    fn spread(
+        &self,
+        vis: &VisSet,
+        rows: Range<usize>,
+        p: usize,
+        sources: &[ArrayView3<'_, Complex64>],
+        outputs: &[GridOutput],
+    ) -> Option<Vec<Vec<Complex64>>> {
+        let len = self.pad_nx * self.pad_ny;
+        let w = self.kernel.support();
+        let mut fp = Footprint::new(w);
+        let mut values = vec![ZERO; sources.len()];
+        let mut grids: Option<Vec<Vec<Complex64>>> = None;
+        let freqs = &vis.frequencies_hz;
+        for r in rows {
+            let (um, vm, wm) = (vis.uvw_m[[r, 0]], vis.uvw_m[[r, 1]], vis.uvw_m[[r, 2]]);
+            for c in self.channels_on_plane(wm, freqs, p) {
+                let scale = freqs[c] / SPEED_OF_LIGHT_M_PER_S;
+                let kw = self.plane_weight(wm * scale, p);
+                for (v, src) in values.iter_mut().zip(sources) {
+                    *v = src.slice(ndarray::s![r, c, ..]).iter().sum();
+                }
+                if values.iter().all(|v| *v == ZERO) || kw == 0.0 {
+                    continue;
+                }
+                self.footprint(um * scale, vm * scale, &mut fp);
+                let grids = grids.get_or_insert_with(|| vec![vec![ZERO; len]; outputs.len()]);
+                for (o, grid) in outputs.iter().zip(grids.iter_mut()) {
+                    let val = values[o.source] * (o.channel_factors[c] * kw);
+                    if val == ZERO {
+                        continue;
+                    }
+                    for (&row, &ky) in fp.iy.iter().zip(&fp.ky) {
+                        let vy = val * ky;
+                        let line = &mut grid[row..row + self.pad_nx];
+                        for (&ix, &kx) in fp.ix.iter().zip(&fp.kx) {
+                            line[ix] += vy * kx;
+                        }
+                    }
+                }
+            }
+        }
+        grids
+    }
+
+    /// Interpolate the grids at every sample of `rows` touching plane `p`, adding
+    /// kw Σ_t f_t(ν) grid_t(s) into `out` (`[row][chan]`, rows starting at `rows.start`).
+    fn interpolate(
+        &self,
+        vis: &VisSet,
+        rows: Range<usize>,
+        p: usize,
+        grids: &[Vec<Complex64>],
+        channel_factors: &[Vec<f64>],
+        out: &mut [Complex64],
+    ) {
+        let n_chan = vis.n_channels();
+        let mut fp = Footprint::new(self.kernel.support());
+        let freqs = &vis.frequencies_hz;
+        for (k, r) in rows.enumerate() {
+            let (um, vm, wm) = (vis.uvw_m[[r, 0]], vis.uvw_m[[r, 1]], vis.uvw_m[[r, 2]]);
+            for c in self.channels_on_plane(wm, freqs, p) {
+                let scale = freqs[c] / SPEED_OF_LIGHT_M_PER_S;
+                let kw = self.plane_weight(wm * scale, p);
+                if kw == 0.0 {
+                    continue;
+                }
+                self.footprint(um * scale, vm * scale, &mut fp);
+                let mut acc = ZERO;
+                for (grid, f) in grids.iter().zip(channel_factors) {
+                    if f[c] == 0.0 {
+                        continue;
+                    }
+                    let mut sum = ZERO;
+                    for (&row, &ky) in fp.iy.iter().zip(&fp.ky) {
+                        let line = &grid[row..row + self.pad_nx];
+                        let mut sx = ZERO;
+                        for (&ix, &kx) in fp.ix.iter().zip(&fp.kx) {
+                            sx += line[ix] * kx;
+                        }
+                        sum += sx * ky;
+                    }
+                    acc += sum * f[c];
+                }
+                out[k * n_chan + c] += acc * kw;
+            }
+        }
+    }
+}
+
+impl ImagingOperator for GridPlan {
+    fn geometry(&self) -> ImageGeometry {
+        self.geometry
+    }
+
+    fn grid(
+        &self,
+        vis: &VisSet,
+        sources: &[ArrayView3<'_, Complex64>],
+        outputs: &[GridOutput],
+    ) -> Result<Vec<Array2<f64>>, ImagingError> {
+        check_grid_args(vis, sources, outputs)?;
+        self.check_w(vis)?;
+        let (nx, ny) = (self.geometry.nx, self.geometry.ny);
+        let mut images = vec![Array2::<f64>::zeros((ny, nx)); outputs.len()];
+        let n_rows = vis.n_rows();
+        let n_tasks = rayon::current_num_threads().max(1);
+        let per_task = n_rows.div_ceil(n_tasks).max(1);
+        let mut scratch = vec![ZERO; self.pad_nx * self.pad_ny];
+        for p in 0..self.n_w_planes() {
+            // One private grid set per task (no locks), summed afterwards.
+            let partial = (0..n_tasks)
+                .into_par_iter()
+                .filter_map(|k| {
+                    let rows = (k * per_task).min(n_rows)..((k + 1) * per_task).min(n_rows);
+                    self.spread(vis, rows, p, sources, outputs)
+                })
+                .reduce_with(|mut a, b| {
+                    for (ga, gb) in a.iter_mut().zip(&b) {
+                        ga.par_iter_mut().zip(gb.par_iter()).for_each(|(x, y)| *x += *y);
+                    }
+                    a
+                });
+            let Some(mut grids) = partial else { continue };
+            let screen = self.screen(p, 1.0);
+            for (grid, image) in grids.iter_mut().zip(images.iter_mut()) {
+                self.fft_inverse.process(grid, &mut scratch);
+                let grid = &*grid;
+                let img = image.as_slice_mut().expect("fresh array is contiguous");
+                img.par_chunks_mut(nx).enumerate().for_each(|(iy, line)| {
+                    for (ix, v) in line.iter_mut().enumerate() {
+                        *v += (grid[self.grid_index(ix, iy)] * screen[iy * nx + ix]).re;
+                    }
+                });
+            }
+        }
+        Ok(images)
+    }
+
+    fn degrid(
+        &self,
+        vis: &VisSet,
+        images: &[Array2<f64>],
+        channel_factors: &[Vec<f64>],
+    ) -> Result<Array3<Complex64>, ImagingError> {
+        check_degrid_args(vis, self.geometry, images, channel_factors)?;
+        self.check_w(vis)?;
+        let (nx, n_rows, n_chan) = (self.geometry.nx, vis.n_rows(), vis.n_channels());
+        let mut out = vec![ZERO; n_rows * n_chan];
+        let mut scratch = vec![ZERO; self.pad_nx * self.pad_ny];
+        let rows_per_task = n_rows.div_ceil(4 * rayon::current_num_threads()).max(1);
+        for p in 0..self.n_w_planes() {
+            let screen = self.screen(p, -1.0);
+            let mut grids = Vec::with_capacity(images.len());
+            for image in images {
+                let mut grid = vec![ZERO; self.pad_nx * self.pad_ny];
+                let img = image.as_standard_layout();
+                for (k, (&v, &s)) in img.iter().zip(&screen).enumerate() {
+                    grid[self.grid_index(k % nx, k / nx)] = s * v;
+                }
+                self.fft_forward.process(&mut grid, &mut scratch);
+                grids.push(grid);
+            }
+            out.par_chunks_mut(rows_per_task * n_chan).enumerate().for_each(|(k, chunk)| {
+                let r0 = k * rows_per_task;
+                let rows = r0..r0 + chunk.len() / n_chan;
+                self.interpolate(vis, rows, p, &grids, channel_factors, chunk);
+            });
+        }
+        let n_corr = vis.n_correlations();
+        Ok(Array3::from_shape_fn((n_rows, n_chan, n_corr), |(r, c, _)| out[r * n_chan + c]))
+    }
+}

@@ -1,0 +1,251 @@
+use crate::error::ImagingError;
+use crate::fft2::Fft2;
+use crate::kernel::EsKernel;
+use crate::params::{GridderParams, WRange, WTerm};
+use beamfloor_core::ImageGeometry;
+use ndarray::Array2;
+use rayon::prelude::*;
+use rustfft::FftDirection;
+
+/// Grid upsampling factor σ the kernel rule is made for (Barnett et al. 2019 use σ = 2).
+pub const UPSAMPLING: f64 = 2.0;
+
+/// The w planes of a w-stacking plan: plane p sits at w_p = w0 + p Δw.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub(crate) struct WPlanes {
+    /// w of plane 0, wavelengths.
+    pub w0: f64,
+    /// Plane spacing Δw, wavelengths.
+    pub dw: f64,
+    /// Number of planes.
+    pub count: usize,
+}
+
+impl WPlanes {
+    /// Fractional plane coordinate of a sample at `w` wavelengths.
+    #[inline]
+    pub fn coordinate(&self, w: f64) -> f64 {
+        (w - self.w0) / self.dw
+    }
+}
+
+/// Everything the exponential-of-semicircle gridder needs, computed once for an image geometry,
+/// an accuracy and a w range, then reused for any number of `grid`/`degrid` calls: the kernel,
+/// the padded grid size, both FFT plans, the per-pixel grid correction and n − 1, and the w planes.
+///
+/// Grid layout: the padded grid has `pad_nx × pad_ny` cells (the smallest 2^a 3^b 5^c ≥ σ · n,
+/// σ = 2). A sample at (u, v) in wavelengths sits at fractional cell
+/// s_x = −u · cell · pad_nx, s_y = v · cell · pad_ny (the minus because pixel x runs towards
+/// decreasing l), so that exp(+2πi (u l + v m)) = exp(+2πi (s_x j_x / pad_nx + s_y j_y / pad_ny))
+/// with j = pixel − centre, and the image is an unnormalised inverse FFT of the grid.
+///
+/// w-planes ([`WTerm::Stack`]): with x = n − 1 ∈ [x_min, 0] over the field, the planes are spaced
+/// Δw = 1 / (2 σ max|x|), so that the image-domain frequency along w, Δw · |x|, stays within the
+/// 1/(2σ) band on which the ES kernel reaches ε — the same condition as for u and v on the padded
+/// grid. Planes cover [w_min − W/2 Δw, w_max + W/2 Δw]: ⌈(w_max − w_min)/Δw⌉ + W + 1 planes.
+/// Pixels with l² + m² ≥ 1 (beyond the horizon) are set to zero.
+#[derive(Clone, Debug)]
+pub struct GridPlan {
+    pub(crate) geometry: ImageGeometry,
+    pub(crate) params: GridderParams,
+    pub(crate) kernel: EsKernel,
+    pub(crate) pad_nx: usize,
+    pub(crate) pad_ny: usize,
+    pub(crate) fft_inverse: Fft2,
+    pub(crate) fft_forward: Fft2,
+    /// 1 / (ψ̂_x ψ̂_y ψ̂_w) per pixel `[iy][ix]`; zero beyond the horizon.
+    pub(crate) inverse_correction: Array2<f64>,
+    /// n − 1 per pixel `[iy][ix]` (zero beyond the horizon or when w is ignored).
+    pub(crate) n_minus_1: Array2<f64>,
+    /// None when w is ignored (one plane at w = 0, no screen).
+    pub(crate) planes: Option<WPlanes>,
+    pub(crate) w_range: WRange,
+}
+
+impl GridPlan {
+    /// Plan the operator for `geometry`, accuracy and w treatment from `params`, and samples whose
+    /// w (wavelengths) lies in `w_range` (see [`WRange::of_visibilities`]).
+    pub fn new(
+        geometry: ImageGeometry,
+        params: &GridderParams,
+        w_range: WRange,
+    ) -> Result<Self, ImagingError> {
+        let bad = |why| ImagingError::Geometry {
+            nx: geometry.nx,
+            ny: geometry.ny,
+            cell_rad: geometry.cell_rad,
+            why,
+        };
+        if geometry.nx < 2 || geometry.ny < 2 || geometry.nx % 2 == 1 || geometry.ny % 2 == 1 {
+            return Err(bad("nx and ny must be even and at least 2"));
+        }
+        if !(geometry.cell_rad.is_finite() && geometry.cell_rad > 0.0 && geometry.cell_rad < 1.0) {
+            return Err(bad("the cell must be a positive angle below 1 rad"));
+        }
+        let w_range = WRange::new(w_range.min_lambda, w_range.max_lambda)?;
+        let kernel = EsKernel::for_epsilon(params.epsilon)?;
+        let pad_nx = good_fft_size((UPSAMPLING * geometry.nx as f64).ceil() as usize);
+        let pad_ny = good_fft_size((UPSAMPLING * geometry.ny as f64).ceil() as usize);
+        let (nx, ny) = (geometry.nx, geometry.ny);
+        let use_w = params.w_term == WTerm::Stack;
+
+        let mut n_minus_1 = Array2::<f64>::zeros((ny, nx));
+        let mut inside = Array2::<bool>::from_elem((ny, nx), true);
+        let mut max_x = 0.0f64;
+        if use_w {
+            for iy in 0..ny {
+                for ix in 0..nx {
+                    let (l, m) = geometry.lm_of_pixel(ix as f64, iy as f64);
+                    let r2 = l * l + m * m;
+                    if r2 < 1.0 {
+                        // n − 1 = −r² / (1 + √(1 − r²)): no cancellation near the centre.
+                        let x = -r2 / (1.0 + (1.0 - r2).sqrt());
+                        n_minus_1[[iy, ix]] = x;
+                        max_x = max_x.max(-x);
+                    } else {
+                        inside[[iy, ix]] = false;
+                    }
+                }
+            }
+        }
+        let planes = if use_w && max_x > 0.0 {
+            let w = kernel.support() as f64;
+            let dw = 1.0 / (2.0 * UPSAMPLING * max_x);
+            let span = ((w_range.max_lambda - w_range.min_lambda) / dw).ceil();
+            if span.is_nan() || span >= 1e6 {
+                return Err(ImagingError::Parameter {
+                    name: "w_range",
+                    value: format!("[{}, {}]", w_range.min_lambda, w_range.max_lambda),
+                    why: "needs more than a million w planes for this field",
+                });
+            }
+            Some(WPlanes {
+                w0: w_range.min_lambda - 0.5 * w * dw,
+                dw,
+                count: span as usize + kernel.support() + 1,
+            })
+        } else {
+            None
+        };
+
+        let cx: Vec<f64> = (0..nx)
+            .map(|ix| kernel.fourier((ix as f64 - (nx / 2) as f64) / pad_nx as f64))
+            .collect();
+        let cy: Vec<f64> = (0..ny)
+            .map(|iy| kernel.fourier((iy as f64 - (ny / 2) as f64) / pad_ny as f64))
+            .collect();
+        let mut inverse_correction = Array2::<f64>::zeros((ny, nx));
+        inverse_correction
+            .as_slice_mut()
+            .expect("fresh array is contiguous")
+            .par_chunks_mut(nx)
+            .enumerate()
+            .for_each(|(iy, row)| {
+                for (ix, v) in row.iter_mut().enumerate() {
+                    if !inside[[iy, ix]] {
+                        continue;
+                    }
+                    let cw = match planes {
+                        Some(p) => kernel.fourier(p.dw * n_minus_1[[iy, ix]]),
+                        None => 1.0,
+                    };
+                    *v = 1.0 / (cx[ix] * cy[iy] * cw);
+                }
+            });
+        Ok(Self {
+            geometry,
+            params: *params,
+            kernel,
+            pad_nx,
+            pad_ny,
+            fft_inverse: Fft2::new(pad_nx, pad_ny, FftDirection::Inverse),
+            fft_forward: Fft2::new(pad_nx, pad_ny, FftDirection::Forward),
+            inverse_correction,
+            n_minus_1,
+            planes,
+            w_range,
+        })
+    }
+
+    /// The image geometry the plan was made for.
+    pub fn image_geometry(&self) -> ImageGeometry {
+        self.geometry
+    }
+
+    /// The parameters the plan was made with.
+    pub fn params(&self) -> GridderParams {
+        self.params
+    }
+
+    /// The spreading kernel.
+    pub fn kernel(&self) -> &EsKernel {
+        &self.kernel
+    }
+
+    /// Padded grid size (x, y).
+    pub fn padded_size(&self) -> (usize, usize) {
+        (self.pad_nx, self.pad_ny)
+    }
+
+    /// Number of w planes (1 when w is ignored or has no effect on this field).
+    pub fn n_w_planes(&self) -> usize {
+        self.planes.map_or(1, |p| p.count)
+    }
+
+    /// w-plane spacing Δw in wavelengths (None when w is ignored).
+    pub fn w_plane_spacing(&self) -> Option<f64> {
+        self.planes.map(|p| p.dw)
+    }
+
+    /// The w range the plan covers, wavelengths.
+    pub fn w_range(&self) -> WRange {
+        self.w_range
+    }
+}
+
+/// Smallest n' ≥ n whose only prime factors are 2, 3 and 5 (fast FFT lengths), kept even.
+fn good_fft_size(n: usize) -> usize {
+    let mut m = n.max(2);
+    loop {
+        let mut k = m;
+        for p in [2, 3, 5] {
+            while k % p == 0 {
+                k /= p;
+            }
+        }
+        if k == 1 && m % 2 == 0 {
+            return m;
+        }
+        m += 1;
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn fft_sizes() {
+        // 2^a 3^b 5^c and even, by definition.
+        assert_eq!(good_fft_size(256), 256);
+        assert_eq!(good_fft_size(98), 100);
+        assert_eq!(good_fft_size(242), 250);
+        assert_eq!(good_fft_size(7), 8);
+    }
+
+    #[test]
+    fn plane_spacing_rule() {
+        // Δw = 1/(2σ max|n−1|) with max|n−1| at the field corner (definition of the rule above).
+        let g = ImageGeometry::new(64, 64, 1e-3);
+        let p = GridPlan::new(g, &GridderParams::default(), WRange::new(-100.0, 300.0).unwrap())
+            .unwrap();
+        let r2 = 2.0 * (32.0e-3f64).powi(2);
+        let x = 1.0 - (1.0 - r2).sqrt();
+        let dw = p.w_plane_spacing().unwrap();
+        assert!((dw - 1.0 / (4.0 * x)).abs() < 1e-9 * dw);
+        assert_eq!(p.n_w_planes(), (400.0 / dw).ceil() as usize + p.kernel().support() + 1);
+        let ignore = GridderParams { w_term: WTerm::Ignore, ..GridderParams::default() };
+        assert_eq!(GridPlan::new(g, &ignore, p.w_range()).unwrap().n_w_planes(), 1);
+        assert!(GridPlan::new(ImageGeometry::new(63, 64, 1e-3), &ignore, p.w_range()).is_err());
+    }
+}
