@@ -11,7 +11,7 @@ use crate::colour_bar::{draw_colour_bar, BAR_AREA_PX};
 #[cfg(test)]
 use crate::png_canvas::render_rgb;
 use crate::png_canvas::{format_value, msg, render_png, Canvas, FONT};
-use crate::ReportError;
+use crate::{ReportError, RestoringBeam};
 
 /// How an image quick-look is drawn.
 #[derive(Clone, Debug, PartialEq)]
@@ -26,6 +26,8 @@ pub struct ImagePngOptions {
     pub value_label: String,
     /// Side of the image area in screen pixels (the longer image axis). Default 560.
     pub image_side_px: u32,
+    /// Restoring beam drawn as an outlined ellipse in the lower-left corner, if given.
+    pub beam: Option<RestoringBeam>,
 }
 
 impl ImagePngOptions {
@@ -42,6 +44,7 @@ impl ImagePngOptions {
             colour_map,
             value_label: value_label.into(),
             image_side_px: 560,
+            beam: None,
         }
     }
 }
@@ -187,6 +190,10 @@ fn draw_image(
             area.draw_pixel((px as i32, py as i32), &RGBColor(r, gg, b)).map_err(msg)?;
         }
     }
+    if let Some(beam) = o.beam {
+        let px_per_rad = pw as f64 / (g.nx as f64 * g.cell_rad);
+        draw_beam(&area, beam, px_per_rad, ph)?;
+    }
     draw_colour_bar(
         &right,
         (rows.start, rows.end),
@@ -195,6 +202,36 @@ fn draw_image(
         (0.0, 1.0),
         &o.value_label,
     )
+}
+
+/// The restoring beam's half-maximum ellipse, centred a little inside the lower-left corner.
+///
+/// The major axis points at position angle θ from north through east; with east to the left
+/// and north up on screen, a point at angle s on the ellipse is at sky offset
+/// (east, north) = (a/2 cos s sin θ + b/2 sin s cos θ, a/2 cos s cos θ − b/2 sin s sin θ).
+fn draw_beam(
+    area: &Canvas<'_>,
+    beam: RestoringBeam,
+    px_per_rad: f64,
+    ph: u32,
+) -> Result<(), String> {
+    let (a, b) = (0.5 * beam.major_rad * px_per_rad, 0.5 * beam.minor_rad * px_per_rad);
+    if !(a.is_finite() && b.is_finite() && a > 0.0 && b > 0.0) {
+        return Ok(());
+    }
+    let (st, ct) = beam.position_angle_rad.sin_cos();
+    let (cx, cy) = (a + 10.0, ph as f64 - a - 10.0);
+    let points: Vec<(i32, i32)> = (0..=72)
+        .map(|k| {
+            let (ss, cs) = (k as f64 * std::f64::consts::TAU / 72.0).sin_cos();
+            let east = a * cs * st + b * ss * ct;
+            let north = a * cs * ct - b * ss * st;
+            ((cx - east).round() as i32, (cy - north).round() as i32)
+        })
+        .collect();
+    area.draw(&Polygon::new(points.clone(), WHITE.mix(0.5))).map_err(msg)?;
+    area.draw(&PathElement::new(points, BLACK.stroke_width(1))).map_err(msg)?;
+    Ok(())
 }
 
 #[cfg(test)]

@@ -105,7 +105,13 @@ fn image_quicklooks() {
     assert_eq!((w, h), (560 + 80 + 24 + 150, 420 + 50 + 60 + 12));
 
     let asinh = ColourScale::new(-2e-3, 1.0, Stretch::Asinh { softening: 2e-3 }).unwrap();
-    let o = ImagePngOptions::new("restored (asinh)", asinh, ColourMap::Sequential, "Jy/beam");
+    let mut o = ImagePngOptions::new("restored (asinh)", asinh, ColourMap::Sequential, "Jy/beam");
+    // An elongated beam at PA 30 deg (north through east): on screen it leans up and left.
+    o.beam = Some(beamfloor_report::RestoringBeam {
+        major_rad: 12.0 * g.cell_rad,
+        minor_rad: 5.0 * g.cell_rad,
+        position_angle_rad: 30f64.to_radians(),
+    });
     let p = dir.join("image_asinh.png");
     write_image_png(&p, im.view(), &g, &o).unwrap();
     png_size(&p);
