@@ -47,10 +47,10 @@ impl RestoringBeam {
         (-4.0 * LN_2 * (a * a / (ma * ma) + b * b / (mi * mi))).exp()
     }
 
-    /// The beam sampled on an odd `(2h+1)²` grid centred at (h, h), h = ⌈3 · major / cell⌉
-    /// (at three FWHM the Gaussian is 2⁻³⁶ ≈ 1.5e-11 of its peak).
+    /// The beam sampled on an odd `(2h+1)²` grid centred at (h, h), h = ⌈4 · major / cell⌉
+    /// (at four FWHM the Gaussian is 2⁻⁶⁴ ≈ 5e-20 of its peak, below f64 rounding of the peak).
     pub fn kernel(&self, cell_rad: f64) -> Array2<f64> {
-        let h = (3.0 * self.major_fwhm_rad / cell_rad).ceil().max(1.0) as usize;
+        let h = (4.0 * self.major_fwhm_rad / cell_rad).ceil().max(1.0) as usize;
         Array2::from_shape_fn((2 * h + 1, 2 * h + 1), |(y, x)| {
             self.value_at_pixel_offset(x as f64 - h as f64, y as f64 - h as f64, cell_rad)
         })
