@@ -134,7 +134,7 @@ fn restored_point_is_the_beam_times_its_flux() {
     model[[16, 14]] = 2.0;
     let residual = Array2::from_shape_fn((32, 32), |(y, x)| 1e-3 * ((x + y) as f64).sin());
     let h = TermHessian::from_peaks(&[1.0], 1, 0).unwrap();
-    let out = restore(&[model], &[residual.clone()], &h, &beam, cell).unwrap();
+    let out = restore(&[model], std::slice::from_ref(&residual), &h, &beam, cell).unwrap();
     for ((y, x), &v) in out.images[0].indexed_iter() {
         let want = 2.0 * beam.value_at_pixel_offset(x as f64 - 14.0, y as f64 - 16.0, cell)
             + residual[[y, x]];
