@@ -74,12 +74,13 @@ pub fn predict_visibilities(
         let in_block = |t: usize| t >= first_time && t < first_time + block_times;
         data.par_chunks_mut(row_len * ROWS_PER_TASK).enumerate().for_each(|(task, chunk)| {
             let mut finished = 0;
+            let mut terms = vec![Complex64::new(0.0, 0.0); n_chan];
             for (offset, out) in chunk.chunks_mut(row_len).enumerate() {
                 let row = &observation.rows[task * ROWS_PER_TASK + offset];
                 if !in_block(row.time_index) {
                     continue;
                 }
-                predict_row(&plan, row, table.as_ref(), out);
+                predict_row(&plan, row, table.as_ref(), &mut terms, out);
                 finished += 1;
             }
             if finished > 0 {
@@ -210,53 +211,84 @@ fn equal_spacing(freqs: &[f64]) -> Option<f64> {
         .then_some(step)
 }
 
-/// One row: accumulate every component into `out` (`[channel][pol]`).
+/// One row: accumulate every component into `out` (`[channel][pol]`); `terms` is scratch of one
+/// complex value per channel.
 fn predict_row(
     plan: &ComponentPlan<'_>,
     row: &beamfloor_array::Row,
     table: Option<&BeamTable>,
+    terms: &mut [Complex64],
     out: &mut [Complex64],
 ) {
+    debug_assert!(table.is_none_or(|t| t.contains(row.time_index)));
     let [u, v, w] = row.uvw_m;
-    let n_chan = plan.frequencies_hz.len();
+    let freqs = plan.frequencies_hz;
+    let n_chan = freqs.len();
     out.iter_mut().for_each(|x| *x = Complex64::new(0.0, 0.0));
     for (index, c) in plan.components.iter().enumerate() {
         // Geometric delay in metres; phase −2π τ ν / c.
         let tau = u * c.l + v * c.m + w * plan.n_minus_one[index];
         let radians_per_hz = -2.0 * PI * tau / SPEED_OF_LIGHT_M_PER_S;
-        let step = plan.channel_step_hz.map(|dnu| Complex64::cis(radians_per_hz * dnu));
-        let envelope = plan.envelope[index].map(|[a, b, cc]| a * u * u + b * u * v + cc * v * v);
+        fill_phasors(radians_per_hz, freqs, plan.channel_step_hz, plan.refresh, terms);
         let flux = &plan.flux[index * n_chan..(index + 1) * n_chan];
-        let beams = table.map(|t| {
-            (
-                t.slice(row.time_index, row.antenna1, index),
-                t.slice(row.time_index, row.antenna2, index),
-            )
-        });
-        let mut phasor = Complex64::new(1.0, 0.0);
-        for (k, &freq) in plan.frequencies_hz.iter().enumerate() {
-            phasor = match step {
-                Some(s) if k % plan.refresh != 0 => phasor * s,
-                _ => Complex64::cis(radians_per_hz * freq),
-            };
-            let mut amplitude = flux[k];
-            if let Some(q) = envelope {
-                amplitude *= (-q * freq * freq).exp();
-            }
-            let value = phasor * amplitude;
-            match beams {
-                Some((ei, ej)) => {
-                    out[2 * k] += value * ei[2 * k] * ej[2 * k].conj();
-                    out[2 * k + 1] += value * ei[2 * k + 1] * ej[2 * k + 1].conj();
+        match plan.envelope[index] {
+            Some([a, b, cc]) => {
+                let q = a * u * u + b * u * v + cc * v * v;
+                for ((t, s), f) in terms.iter_mut().zip(flux).zip(freqs) {
+                    *t *= s * (-q * f * f).exp();
                 }
-                None => {
-                    out[2 * k] += value;
-                    out[2 * k + 1] += value;
+            }
+            None => terms.iter_mut().zip(flux).for_each(|(t, s)| *t *= s),
+        }
+        match table {
+            Some(t) => {
+                let ei = t.slice(row.time_index, row.antenna1, index);
+                let ej = t.slice(row.time_index, row.antenna2, index);
+                for (((o, term), ei), ej) in out
+                    .chunks_exact_mut(2)
+                    .zip(terms.iter())
+                    .zip(ei.chunks_exact(2))
+                    .zip(ej.chunks_exact(2))
+                {
+                    o[0] += term * (ei[0] * ej[0].conj());
+                    o[1] += term * (ei[1] * ej[1].conj());
+                }
+            }
+            None => {
+                for (o, term) in out.chunks_exact_mut(2).zip(terms.iter()) {
+                    o[0] += term;
+                    o[1] += term;
                 }
             }
         }
     }
-    debug_assert!(table.is_none_or(|t| t.contains(row.time_index)));
+}
+
+/// exp(i a ν_k) for every channel: exactly at the first channel of every run of `refresh`, then by
+/// multiplying with exp(i a Δν) when the channels are equally spaced (`step_hz`), else exactly.
+fn fill_phasors(
+    radians_per_hz: f64,
+    freqs: &[f64],
+    step_hz: Option<f64>,
+    refresh: usize,
+    terms: &mut [Complex64],
+) {
+    match step_hz {
+        Some(dnu) => {
+            let step = Complex64::cis(radians_per_hz * dnu);
+            for (block, f) in terms.chunks_mut(refresh).zip(freqs.chunks(refresh)) {
+                let mut z = Complex64::cis(radians_per_hz * f[0]);
+                block[0] = z;
+                for t in &mut block[1..] {
+                    z *= step;
+                    *t = z;
+                }
+            }
+        }
+        None => {
+            terms.iter_mut().zip(freqs).for_each(|(t, f)| *t = Complex64::cis(radians_per_hz * f))
+        }
+    }
 }
 
 #[cfg(test)]
