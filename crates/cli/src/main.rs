@@ -1,4 +1,48 @@
-//! The `beamfloor` command: thin argument parsing over `beamfloor-experiment`.
-fn main() {
-    println!("beamfloor: under construction");
+//! The `beamfloor` command: argument parsing, progress display and exit codes over
+//! `beamfloor-experiment`. No physics lives here.
+//!
+//! Exit codes: 0 success, 2 bad input (config, files, impossible settings), 1 failure while
+//! running.
+
+mod commands;
+
+use std::process::ExitCode;
+
+use clap::{Parser, Subcommand};
+
+/// What residual floor does each imaging strategy leave on a simulated wideband, wide-field
+/// observation, and why?
+///
+/// beamfloor simulates an interferometer observation from a TOML config (array, band, sky with
+/// spectra, dish beams with their time, frequency and polarization effects, thermal noise),
+/// images the same visibilities with several correction strategies and scores each against the
+/// known truth. Results are simulations: they guide, and do not replace, validation on real data.
+///
+/// Start with `beamfloor check configs/demo.toml`.
+#[derive(Parser)]
+#[command(name = "beamfloor", version, about, long_about, propagate_version = true)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand)]
+enum Command {
+    /// Validate a config and print the experiment it describes (antennas, baselines, time
+    /// samples, channels, visibilities, memory) without running anything heavy.
+    Check(commands::check::Args),
+}
+
+fn main() -> ExitCode {
+    let cli = Cli::parse();
+    let result = match cli.command {
+        Command::Check(args) => commands::check::run(&args),
+    };
+    match result {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(failure) => {
+            eprintln!("error: {failure}");
+            ExitCode::from(failure.exit_code())
+        }
+    }
 }
