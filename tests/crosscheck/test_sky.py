@@ -65,3 +65,27 @@ def test_sin_projection_matches_astropy(case_index):
     dra = (c["ra_back_rad"] - np.radians(back[0]) + np.pi) % (2 * np.pi) - np.pi
     assert abs(dra) * np.cos(c["dec_rad"]) < 1e-12
     assert abs(c["dec_back_rad"] - np.radians(back[1])) < 1e-12
+
+
+def test_gaussian_envelope_matches_numpy_fft():
+    # Sample the unit-flux elliptical Gaussian on an n x n grid (l along axis 1, m along axis 0)
+    # and take numpy's FFT, whose kernel exp(-2 pi i jk/n) is the measurement-equation sign; the
+    # continuous transform is h^2 times the DFT of the origin-shifted samples, up to aliasing
+    # exp(-2 pi^2 sigma^2 / h^2) (sigma >= 2.6 cells: ~1e-60) and truncation at the grid edge
+    # (half-width 5.1e-3 rad >= 10 sigma: ~exp(-50)), so 1e-12 bounds FFT rounding only. The Gaussian is written in its own axes, the major axis
+    # along (l, m) = (sin pa, cos pa), pa from north through east.
+    for c in load_export("sky_gaussian_envelopes")["cases"]:
+        n, h = c["n"], c["step_rad"]
+        k = 2.0 * np.sqrt(2.0 * np.log(2.0))
+        sa, sb = c["major_fwhm_rad"] / k, c["minor_fwhm_rad"] / k
+        pa = c["position_angle_rad"]
+        x = (np.arange(n) - n // 2) * h
+        l, m = np.meshgrid(x, x)  # l varies along axis 1
+        a = l * np.sin(pa) + m * np.cos(pa)
+        b = l * np.cos(pa) - m * np.sin(pa)
+        img = np.exp(-0.5 * (a**2 / sa**2 + b**2 / sb**2)) / (2 * np.pi * sa * sb)
+        ft = np.fft.fft2(np.fft.ifftshift(img)) * h * h
+        got = np.array(c["envelope_v_by_u"])
+        assert np.max(np.abs(ft.real - got)) < 1e-12
+        assert np.max(np.abs(ft.imag)) < 1e-12
+        assert np.sum(got > 1e-3) > 100  # the comparison covers the envelope's main lobe

@@ -83,3 +83,30 @@ fn export_sin_projection() {
     }
     write("sky_sin_projection", serde_json::json!({ "cases": cases }));
 }
+
+#[test]
+fn export_gaussian_envelopes() {
+    use beamfloor_sky::EllipticalGaussian;
+    // Envelope values on the FFT frequency grid of an n × n sampling of step h, for the Python
+    // side to compare with numpy's FFT of the sampled Gaussian.
+    let (n, h) = (256usize, 4e-5);
+    let shapes = [(6e-4, 2.5e-4, 0.6), (1.2e-3, 1.2e-3, 0.0), (9e-4, 3e-4, -1.1)];
+    let cases: Vec<_> = shapes
+        .iter()
+        .map(|&(maj, min, pa)| {
+            let g = EllipticalGaussian::new(maj, min, pa).unwrap();
+            let freq = |k: usize| {
+                let f = if k < n / 2 { k as f64 } else { k as f64 - n as f64 };
+                f / (n as f64 * h)
+            };
+            let env: Vec<Vec<f64>> = (0..n)
+                .map(|kv| (0..n).map(|ku| g.envelope(freq(ku), freq(kv))).collect())
+                .collect();
+            serde_json::json!({
+                "major_fwhm_rad": maj, "minor_fwhm_rad": min, "position_angle_rad": pa,
+                "n": n, "step_rad": h, "envelope_v_by_u": env,
+            })
+        })
+        .collect();
+    write("sky_gaussian_envelopes", serde_json::json!({ "cases": cases }));
+}
