@@ -33,9 +33,11 @@ const ROWS_PER_TASK: usize = 16;
 ///   of time samples ([`PredictParams::beam_cache_bytes`]), not per visibility;
 /// - along the channels the phase is advanced by a constant phasor exp(−2πi τ Δν / c) (τ the
 ///   geometric delay in metres) and recomputed exactly every
-///   [`PredictParams::phase_refresh_channels`] channels, which keeps the accumulated rounding
-///   below 1e-13; if the channel frequencies are not equally spaced to rounding, every channel
-///   is evaluated directly;
+///   [`PredictParams::phase_refresh_channels`] (K) channels. Each step adds about ε·|2π τ Δν/c|
+///   of phase rounding, so the recurrence departs from direct evaluation by ≲ K ε |2π τ Δν / c|
+///   per unit flux — the same order as the rounding of the direct phase 2π τ ν / c itself
+///   (tested: 3e-13 of the total flux for K = 64, 1.2 km baselines, sources 3° out). If the
+///   channel frequencies are not equally spaced to rounding, every channel is evaluated directly;
 /// - rows are independent and each is summed in a fixed order, so the result is bitwise the same
 ///   for any number of threads.
 ///
