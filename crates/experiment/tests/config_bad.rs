@@ -1,0 +1,266 @@
+//! Each file in `tests/bad_configs/` breaks one rule (or, for `several_problems`, two) of an
+//! otherwise valid config. The table states where the error must point (file:line:column, read
+//! off the file by hand) and the fragments the message must contain: the key path, the value as
+//! written and what is allowed.
+
+use std::path::PathBuf;
+
+use beamfloor_experiment::config::{load_config, ConfigError};
+
+struct Case {
+    file: &'static str,
+    /// `line:column` of the first problem.
+    at: &'static str,
+    fragments: &'static [&'static str],
+}
+
+const CASES: &[Case] = &[
+    Case {
+        file: "unknown_key_typo",
+        at: "27:1",
+        fragments: &["beam.dish_diametre_m: unknown key `dish_diametre_m`", "(did you mean `dish_diameter_m`?)", "valid keys here: dish_diameter_m, blockage_diameter_m"],
+    },
+    Case {
+        file: "unknown_section",
+        at: "26:2",
+        fragments: &["beams: unknown key `beams`", "(did you mean `beam`?)"],
+    },
+    Case {
+        file: "legs_key_typo",
+        at: "31:1",
+        fragments: &["beam.legs.widht_m: unknown key", "(did you mean `width_m`?)", "count, width_m, angle_deg"],
+    },
+    Case {
+        file: "wrong_type_channels",
+        at: "18:12",
+        fragments: &["observation.channels = \"eight\": wrong type: expected a whole number", "found string"],
+    },
+    Case {
+        file: "float_for_integer",
+        at: "18:12",
+        fragments: &["observation.channels = 8.5: wrong type: expected a whole number"],
+    },
+    Case {
+        file: "negative_diameter",
+        at: "27:19",
+        fragments: &["beam.dish_diameter_m = -13.5: must be > 0 (metres)"],
+    },
+    Case {
+        file: "band_reversed",
+        at: "17:12",
+        fragments: &["observation.band_ghz = [2.0, 1.0]: must be [lo, hi] with 0 < lo < hi (GHz)"],
+    },
+    Case {
+        file: "band_three_values",
+        at: "17:12",
+        fragments: &["observation.band_ghz = [1.0, 1.5, 2.0]: wrong type: expected a list of exactly 2 numbers, found a list of 3 items"],
+    },
+    Case {
+        file: "zero_channels",
+        at: "18:12",
+        fragments: &["observation.channels = 0: must be >= 1"],
+    },
+    Case {
+        file: "hour_angles_reversed",
+        at: "16:20",
+        fragments: &["observation.hour_angle_end_h = -2.0: must be later than hour_angle_start_h = 2"],
+    },
+    Case {
+        file: "dec_beyond_pole",
+        at: "14:11",
+        fragments: &["observation.dec_deg = -95.0: must be within [-90, 90] (degrees)"],
+    },
+    Case {
+        file: "never_rises",
+        at: "14:11",
+        fragments: &["observation.dec_deg = 70.0: the phase centre reaches at most -8.7 deg elevation", "observation.elevation_limit_deg = 15"],
+    },
+    Case {
+        file: "robust_out_of_range",
+        at: "32:10",
+        fragments: &["imaging.robust = 3.0: must be within [-2, 2]"],
+    },
+    Case {
+        file: "robust_without_briggs",
+        at: "32:10",
+        fragments: &["imaging.robust = 0.5: only applies with weighting = \"briggs\""],
+    },
+    Case {
+        file: "blockage_too_big",
+        at: "28:23",
+        fragments: &["beam.blockage_diameter_m = 14.0: must be smaller than dish_diameter_m = 13.5 (metres)"],
+    },
+    Case {
+        file: "taylor_terms_too_many",
+        at: "41:16",
+        fragments: &["strategy[1].taylor_terms = 5: must be within 1..=4"],
+    },
+    Case {
+        file: "taylor_terms_with_mfs",
+        at: "41:16",
+        fragments: &["strategy[1].taylor_terms = 3: only applies with spectral = \"multi-term\""],
+    },
+    Case {
+        file: "duplicate_strategy",
+        at: "39:8",
+        fragments: &["strategy[1].name = \"plain\": duplicate strategy name (also strategy[0])"],
+    },
+    Case {
+        file: "duplicate_source",
+        at: "46:8",
+        fragments: &["sky.source[1].name = \"a\": duplicate source name (also sky.source[0])"],
+    },
+    Case {
+        file: "unknown_gridding",
+        at: "40:12",
+        fragments: &["strategy[1].gridding = \"wideband\": not a known choice (did you mean \"wideband-a\"?)", "allowed: \"plain\", \"w\", \"a\", \"wideband-a\""],
+    },
+    Case {
+        file: "layout_typo",
+        at: "7:15",
+        fragments: &["array.layout = \"log-spirl\": not a known choice (did you mean \"log-spiral\"?)"],
+    },
+    Case {
+        file: "missing_dec",
+        at: "13:1",
+        fragments: &["missing required key `observation.dec_deg` (declination of the phase centre, degrees)"],
+    },
+    Case {
+        file: "missing_strategy_section",
+        at: "1:1",
+        fragments: &["missing required key `strategy`"],
+    },
+    Case {
+        file: "two_positions",
+        at: "20:1",
+        fragments: &["sky.source[0]: source `a` gives its position more than one way (l_arcmin/m_arcmin, radius_arcmin)"],
+    },
+    Case {
+        file: "no_position",
+        at: "20:1",
+        fragments: &["sky.source[0]: source `a` has no position", "`beam_power` + `position_angle_deg`"],
+    },
+    Case {
+        file: "gaussian_without_size",
+        at: "20:1",
+        fragments: &["sky.source[0]: source `a` is a Gaussian and needs `major_arcsec` and `minor_arcsec`"],
+    },
+    Case {
+        file: "beam_power_above_one",
+        at: "23:14",
+        fragments: &["sky.source[0].beam_power = 1.5: must be within (0, 1]"],
+    },
+    Case {
+        file: "nan_flux",
+        at: "22:11",
+        fragments: &["sky.source[0].flux_jy = nan: must be > 0 (Jy)"],
+    },
+    Case {
+        file: "clean_gain_too_big",
+        at: "43:8",
+        fragments: &["strategy[1].clean.gain = 1.5: must be within (0, 1]"],
+    },
+    Case {
+        file: "both_thresholds",
+        at: "45:19",
+        fragments: &["strategy[1].clean.threshold_sigma = 4.0: give at most one of threshold_jy and threshold_sigma"],
+    },
+    Case {
+        file: "spacing_below_dish",
+        at: "10:17",
+        fragments: &["array.layout.random-disc.min_spacing_m = 10.0: must exceed beam.dish_diameter_m = 13.5"],
+    },
+    Case {
+        // The override's table (line 44) is where the fix goes; the blockage is inherited.
+        file: "imaging_beam_mismatch_invalid",
+        at: "44:1",
+        fragments: &["strategy[1].imaging_beam.blockage_diameter_m = 1.2 (from [beam] or default): must be smaller than dish_diameter_m = 1"],
+    },
+    Case {
+        file: "pointing_offsets_count",
+        at: "30:18",
+        fragments: &["beam.pointing.offsets_arcsec = [[1.0, 2.0], [3.0, 4.0]]: must hold one [east, north] pair for all antennas or one per antenna (12)"],
+    },
+    Case {
+        file: "syntax_error",
+        at: "30:9",
+        fragments: &["not valid TOML: invalid table header"],
+    },
+    Case {
+        file: "several_problems",
+        at: "18:12",
+        fragments: &["observation.channels = 0: must be >= 1", "several_problems.toml:27:19: beam.dish_diameter_m = -1.0: must be > 0 (metres)"],
+    },
+];
+
+fn bad_dir() -> PathBuf {
+    PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("tests/bad_configs")
+}
+
+#[test]
+fn every_bad_config_is_rejected_with_a_located_actionable_message() {
+    let mut failures = Vec::new();
+    for case in CASES {
+        let path = bad_dir().join(format!("{}.toml", case.file));
+        let origin = path.display().to_string();
+        let message = match load_config(&path) {
+            Ok(_) => {
+                failures.push(format!("{}: accepted", case.file));
+                continue;
+            }
+            Err(e) => e.to_string(),
+        };
+        let first_line = message.lines().next().unwrap_or_default();
+        let prefix = format!("{origin}:{}: ", case.at);
+        if !first_line.starts_with(&prefix) {
+            failures.push(format!(
+                "{}: expected to start with `{prefix}`, got `{first_line}`",
+                case.file
+            ));
+        }
+        for fragment in case.fragments {
+            if !message.contains(fragment) {
+                failures.push(format!("{}: lacks `{fragment}` in `{message}`", case.file));
+            }
+        }
+    }
+    assert!(failures.is_empty(), "{}", failures.join("\n"));
+}
+
+#[test]
+fn the_table_covers_every_file_in_the_folder() {
+    let mut on_disk: Vec<String> = std::fs::read_dir(bad_dir())
+        .unwrap()
+        .filter_map(|e| e.ok())
+        .filter_map(|e| e.path().file_stem().map(|s| s.to_string_lossy().into_owned()))
+        .collect();
+    on_disk.sort();
+    let mut in_table: Vec<String> = CASES.iter().map(|c| c.file.to_string()).collect();
+    in_table.sort();
+    assert_eq!(on_disk, in_table);
+    assert!(CASES.len() >= 15);
+}
+
+#[test]
+fn several_problems_are_reported_together_one_per_line() {
+    let err = load_config(bad_dir().join("several_problems.toml")).unwrap_err();
+    let ConfigError::Several(list) = &err else { panic!("expected a list, got {err}") };
+    assert_eq!(list.len(), 2, "{err}");
+    assert_eq!(err.problems().len(), 2);
+    assert_eq!(err.to_string().lines().count(), 2);
+}
+
+#[test]
+fn display_matches_the_documented_form() {
+    // The exact form promised in the error type's documentation.
+    let path = bad_dir().join("negative_diameter.toml");
+    let err = load_config(&path).unwrap_err();
+    assert_eq!(
+        err.to_string(),
+        format!("{}:27:19: beam.dish_diameter_m = -13.5: must be > 0 (metres)", path.display())
+    );
+    let ConfigError::Invalid { location, key_path, value, .. } = &err else { panic!("{err:?}") };
+    assert_eq!((location.line, location.column), (27, 19));
+    assert_eq!(key_path, "beam.dish_diameter_m");
+    assert_eq!(value, "-13.5");
+}
