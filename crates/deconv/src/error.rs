@@ -48,7 +48,8 @@ pub enum DeconvError {
         /// Value found there.
         value: f64,
     },
-    /// An N×N Hessian is not positive definite (a pivot of its Cholesky factor is not positive).
+    /// An N×N Hessian is not positive definite (a pivot of its Cholesky factor is not positive,
+    /// or below 1e-12 of its diagonal entry: singular to working precision).
     #[error("Hessian (scale {scale}) is not positive definite: pivot {pivot} is {value:e}")]
     HessianNotPositiveDefinite {
         /// Index of the scale whose Hessian failed.

@@ -165,7 +165,9 @@ fn cholesky(h: &[f64], n: usize, scale: usize) -> Result<Vec<f64>, DeconvError> 
         for k in 0..j {
             d -= l[j * n + k] * l[j * n + k];
         }
-        if !(d > 0.0 && d.is_finite()) {
+        // A pivot this small relative to its diagonal means H is singular to working precision
+        // (e.g. two Taylor terms with proportional PSFs); its inverse would be noise.
+        if !(d > 1e-12 * h[j * n + j].abs() && d.is_finite()) {
             return Err(DeconvError::HessianNotPositiveDefinite { scale, pivot: j, value: d });
         }
         let djj = d.sqrt();
@@ -245,6 +247,13 @@ mod tests {
                 assert!((h.inverse_get(i, j) - want).abs() < 1e-11 * want.abs().max(1.0), "{i}{j}");
             }
         }
+    }
+
+    #[test]
+    fn numerically_singular_matrix_is_rejected() {
+        // [[1, a], [a, a²]] is exactly singular; rounding leaves a pivot of ~1e-19.
+        let a = 0.05;
+        assert!(TermHessian::from_matrix(vec![1.0, a, a, a * a], 2, 0).is_err());
     }
 
     #[test]

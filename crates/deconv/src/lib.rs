@@ -53,7 +53,7 @@ pub use major::{
     run_major_cycles, CycleReport, Deconvolved, MajorCycleParams, MajorStop, ResidualImager,
     Threshold,
 };
-pub use minor::{run_minor_cycle, CleanParams, MinorCycleOutcome, MinorStop};
+pub use minor::{run_minor_cycle, CleanParams, MinorCycleOutcome, MinorStop, MAX_TERMS};
 pub use plan::MinorCyclePlan;
 pub use restore::{restore, spectral_maps, Restored, SpectralMapParams, SpectralMaps};
 pub use scales::{scale_function, ScaleSet, ScaleShape};

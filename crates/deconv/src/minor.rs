@@ -4,6 +4,10 @@ use crate::plan::MinorCyclePlan;
 use crate::DeconvError;
 use ndarray::Array2;
 
+/// Largest number of Taylor terms a minor cycle accepts (the Hessian of more terms is
+/// numerically singular for any realistic fractional bandwidth).
+pub const MAX_TERMS: usize = 8;
+
 /// Knobs of one minor cycle. Defaults in [`CleanParams::default`].
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct CleanParams {
@@ -187,7 +191,6 @@ pub fn run_minor_cycle(
     let mut flux_added = 0.0;
     let mut iterations = 0;
     let mut rv = vec![0.0; n];
-    let mut av = vec![0.0; n];
     let mut best_a = vec![0.0; n];
     let (py, px) = plan.psf_dim;
     let (pcy, pcx) = ((py / 2) as isize, (px / 2) as isize);
@@ -201,19 +204,15 @@ pub fn run_minor_cycle(
         // 1–2: peak search over scales and pixels.
         let mut best = (0.0f64, usize::MAX, 0usize);
         for (s, level) in plan.levels.iter().enumerate() {
-            if !level.selectable {
-                continue;
-            }
-            let b2 = level.bias * level.bias;
-            for &p in &level_regions[s] {
-                for (i, r) in rv.iter_mut().enumerate() {
-                    *r = smooth[s * n + i][p];
-                }
-                level.hessian.solve_into(&rv, &mut av);
-                let crit = b2 * av.iter().zip(&rv).map(|(a, r)| a * r).sum::<f64>();
+            if level.selectable {
+                let (crit, p) = search_level(
+                    &smooth[s * n..(s + 1) * n],
+                    &level_regions[s],
+                    &level.hessian,
+                    level.bias,
+                );
                 if crit > best.0 {
                     best = (crit, s, p);
-                    best_a.copy_from_slice(&av);
                 }
             }
         }
@@ -221,6 +220,10 @@ pub fn run_minor_cycle(
         if crit.is_nan() || crit <= 0.0 || s == usize::MAX {
             break MinorStop::NothingLeft;
         }
+        for (i, r) in rv.iter_mut().enumerate() {
+            *r = smooth[s * n + i][p];
+        }
+        plan.levels[s].hessian.solve_into(&rv, &mut best_a);
         let (cy, cx) = ((p / nx) as isize, (p % nx) as isize);
         for a in best_a.iter_mut() {
             *a *= params.loop_gain;
@@ -278,4 +281,51 @@ pub fn run_minor_cycle(
         }
     }
     Ok(MinorCycleOutcome { iterations, start_peak, end_peak, flux_added, stop })
+}
+
+/// Largest bias² · rᵀ H⁻¹ r over `region` for one scale: (criterion, pixel). The principal
+/// solution itself is only formed for the winner; N = 1 gets its own loop (r² · H⁻¹ · bias²).
+fn search_level(
+    planes: &[Vec<f64>],
+    region: &[usize],
+    hessian: &crate::TermHessian,
+    bias: f64,
+) -> (f64, usize) {
+    let n = planes.len();
+    let b2 = bias * bias;
+    let mut best = (0.0f64, usize::MAX);
+    if n == 1 {
+        let k = b2 * hessian.inverse_get(0, 0);
+        let plane = &planes[0];
+        for &p in region {
+            let r = plane[p];
+            let c = k * r * r;
+            if c > best.0 {
+                best = (c, p);
+            }
+        }
+        return best;
+    }
+    let mut inv = [0.0f64; MAX_TERMS * MAX_TERMS];
+    for i in 0..n {
+        for j in 0..n {
+            inv[i * n + j] = b2 * hessian.inverse_get(i, j);
+        }
+    }
+    let mut r = [0.0f64; MAX_TERMS];
+    for &p in region {
+        for (ri, plane) in r.iter_mut().zip(planes) {
+            *ri = plane[p];
+        }
+        let mut c = 0.0;
+        for i in 0..n {
+            let row = &inv[i * n..i * n + n];
+            let a: f64 = row.iter().zip(&r[..n]).map(|(h, x)| h * x).sum();
+            c += a * r[i];
+        }
+        if c > best.0 {
+            best = (c, p);
+        }
+    }
+    best
 }

@@ -59,7 +59,7 @@ impl MinorCyclePlan {
     }
 
     /// Multi-scale multi-term MFS CLEAN (Rau & Cornwell 2011, A&A 532, A71): `psfs` are the
-    /// 2N − 1 spectral PSFs PSF_0 … PSF_{2N−2}.
+    /// 2N − 1 spectral PSFs PSF_0 … PSF_{2N−2}, 1 ≤ N ≤ [`crate::MAX_TERMS`].
     pub fn new(
         psfs: &[Array2<f64>],
         nterms: usize,
@@ -67,6 +67,13 @@ impl MinorCyclePlan {
     ) -> Result<Self, DeconvError> {
         if nterms == 0 {
             return Err(DeconvError::NoTerms(nterms));
+        }
+        if nterms > crate::minor::MAX_TERMS {
+            return Err(DeconvError::Parameter {
+                name: "nterms",
+                value: nterms as f64,
+                allowed: "1 ..= 8 (MAX_TERMS)",
+            });
         }
         let nk = 2 * nterms - 1;
         if psfs.len() != nk {
