@@ -98,7 +98,7 @@ impl GridPlan {
     }
 
     fn check_w(&self, vis: &VisSet) -> Result<(), ImagingError> {
-        if self.planes.is_none() {
+        if self.planes.is_none() || vis.n_rows() == 0 {
             return Ok(());
         }
         let r = w_range_of(vis.uvw_m.column(2).iter().copied(), &vis.frequencies_hz);

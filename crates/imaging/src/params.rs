@@ -59,7 +59,7 @@ impl WRange {
         Ok(w_range_of(vis.uvw_m.column(2).iter().copied(), &vis.frequencies_hz))
     }
 
-    /// True when `w_lambda` lies inside the range.
+    /// True when `w_lambda` lies inside the range (inclusive).
     pub fn contains(&self, w_lambda: f64) -> bool {
         (self.min_lambda..=self.max_lambda).contains(&w_lambda)
     }
@@ -69,13 +69,17 @@ impl WRange {
 /// bound it).
 pub(crate) fn w_range_of(w_m: impl Iterator<Item = f64>, freqs: &[f64]) -> WRange {
     let (lo_f, hi_f) = (freqs[0], freqs[freqs.len() - 1]);
-    let (mut lo, mut hi) = (0.0f64, 0.0f64);
+    let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
     for w in w_m {
         for f in [lo_f, hi_f] {
             let wl = w * f / SPEED_OF_LIGHT_M_PER_S;
             lo = lo.min(wl);
             hi = hi.max(wl);
         }
+    }
+    if lo > hi {
+        // No rows: an empty set of samples fits any range; report w = 0.
+        return WRange { min_lambda: 0.0, max_lambda: 0.0 };
     }
     WRange { min_lambda: lo, max_lambda: hi }
 }

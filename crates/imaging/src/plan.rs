@@ -44,6 +44,11 @@ impl WPlanes {
 /// 1/(2σ) band on which the ES kernel reaches ε — the same condition as for u and v on the padded
 /// grid. Planes cover [w_min − W/2 Δw, w_max + W/2 Δw]: ⌈(w_max − w_min)/Δw⌉ + W + 1 planes.
 /// Pixels with l² + m² ≥ 1 (beyond the horizon) are set to zero.
+///
+/// Cost and memory: every sample is spread onto W planes (W³ kernel products with w-stacking,
+/// W² without), and each plane costs one padded FFT per output image. Gridding keeps one padded
+/// complex grid (16 · pad_nx · pad_ny bytes) per output image per rayon thread, summed after
+/// each plane; degridding keeps one per input image.
 #[derive(Clone, Debug)]
 pub struct GridPlan {
     pub(crate) geometry: ImageGeometry,

@@ -109,3 +109,25 @@ fn predicted_taylor_model_matches_measurement_equation() {
     let bad = predict_visibilities(&plan, &vis, &[Array2::zeros((3, 3))], 1.5e9);
     assert!(matches!(bad, Err(ImagingError::Shape { .. })));
 }
+
+#[test]
+fn w_outside_the_plan_is_an_error_and_offset_ranges_work() {
+    // A plan for w in [100, 200] wavelengths accepts samples there (no implicit w = 0) and
+    // rejects a sample beyond it, naming the value.
+    let g = ImageGeometry::new(32, 32, 2e-3);
+    let to_m = SPEED_OF_LIGHT_M_PER_S / 1e9;
+    let uvw =
+        Array2::from_shape_vec((2, 3), vec![10.0, 5.0, 120.0, -3.0, 8.0, 190.0]).unwrap() * to_m;
+    let mut vis = common::visset(uvw, vec![1e9]);
+    let plan =
+        GridPlan::new(g, &GridderParams::default(), WRange::new(100.0, 200.0).unwrap()).unwrap();
+    let w = imaging_weights(&vis, &g, Weighting::Natural).unwrap();
+    let taylor = TaylorTerms { n_terms: 1, ref_freq_hz: 1e9 };
+    vis.data.fill(Complex64::new(1.0, 0.0));
+    assert!(dirty_images(&plan, &vis, &w, &taylor).is_ok());
+    vis.uvw_m[[1, 2]] = 250.0 * to_m;
+    match dirty_images(&plan, &vis, &w, &taylor) {
+        Err(ImagingError::WOutOfRange { w_lambda, .. }) => assert!((w_lambda - 250.0).abs() < 1e-9),
+        other => panic!("expected WOutOfRange, got {other:?}"),
+    }
+}
