@@ -264,3 +264,79 @@ fn display_matches_the_documented_form() {
     assert_eq!(key_path, "beam.dish_diameter_m");
     assert_eq!(value, "-13.5");
 }
+
+/// Edits of `configs/minimal.toml` (line numbers as in that file, after the edit) that reach
+/// the deeper corners of the schema: nested tables, lists of lists, choices with settings.
+#[test]
+fn edits_of_the_minimal_config_point_at_the_right_key() {
+    let minimal = std::fs::read_to_string(
+        PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("../../configs/minimal.toml"),
+    )
+    .unwrap();
+    let cases: &[(&str, &str, &str)] = &[
+        (
+            "gridding = \"plain\"",
+            "gridding = \"plain\"\n[strategy.clean]\nthreshhold_sigma = 3",
+            "minimal.toml:24:1: strategy[0].clean.threshhold_sigma: unknown key `threshhold_sigma` (did you mean `threshold_sigma`?)",
+        ),
+        (
+            "flux_jy = 1.0",
+            "flux_jy = 1.0\nalpah = 1",
+            "minimal.toml:17:1: sky.source[0].alpah: unknown key `alpah` (did you mean `alpha`?)",
+        ),
+        (
+            "gridding = \"plain\"",
+            "gridding = \"plain\"\n[strategy.imaging_beam.legs]\ncont = 3",
+            "minimal.toml:24:1: strategy[0].imaging_beam.legs.cont: unknown key `cont` (did you mean `count`?)",
+        ),
+        (
+            "gridding = \"plain\"",
+            "gridding = \"plain\"\n[strategy.imaging_beam]\nmount = \"altaz\"",
+            "minimal.toml:24:9: strategy[0].imaging_beam.mount = \"altaz\": not a known choice (did you mean \"alt-az\"?)",
+        ),
+        (
+            "dec_deg = -45.0",
+            "dec_deg = -45.0\n[beam]\npointing = { offsets_arcsec = [[1, \"a\"]] }",
+            "minimal.toml:14:36: beam.pointing.offsets_arcsec[0][1] = \"a\": wrong type: expected a number",
+        ),
+        (
+            "dec_deg = -45.0",
+            "dec_deg = -45.0\n[beam]\ntaper = \"parabolic-on-pedestal\"",
+            "minimal.toml:14:9: beam.taper: \"parabolic-on-pedestal\" takes settings: write it as a table, `[beam.taper.parabolic-on-pedestal]`",
+        ),
+        (
+            "name = \"minimal\"",
+            "name = \"minimal run\"",
+            "minimal.toml:5:8: experiment.name = \"minimal run\": must be 1 to 100 characters of letters, digits",
+        ),
+        (
+            "name = \"minimal\"",
+            "name = \"minimal\"\nseed = -1",
+            "minimal.toml:6:8: experiment.seed = -1: wrong type: expected a whole number >= 0",
+        ),
+        (
+            "l_arcmin = 0.0",
+            "l_arcmin = 3.0e5",
+            "minimal.toml:17:12: sky.source[0].l_arcmin = 3.0e5: l² + m² must be < 1",
+        ),
+        (
+            "radius_m = 400.0",
+            "radius_m = 30.0",
+            // 12 dishes at the default spacing 1.5 × 13.5 m cannot be scattered in a 30 m disc.
+            "minimal.toml:7:1: array.layout.random-disc.min_spacing_m = 20.25 (default): 12 antennas 20.25 m apart would cover",
+        ),
+    ];
+    let mut failures = Vec::new();
+    for (old, new, expected) in cases {
+        assert!(minimal.contains(old), "minimal.toml no longer contains `{old}`");
+        let text = minimal.replacen(old, new, 1);
+        match beamfloor_experiment::parse_config(&text, "minimal.toml") {
+            Ok(_) => failures.push(format!("`{new}` accepted")),
+            Err(e) if !e.to_string().starts_with(expected) => {
+                failures.push(format!("`{new}`: expected `{expected}…`, got `{e}`"))
+            }
+            Err(_) => {}
+        }
+    }
+    assert!(failures.is_empty(), "{}", failures.join("\n"));
+}

@@ -188,6 +188,18 @@ fn schema_error(e: &toml::de::Error, origin: &str, text: &str, index: &SpanIndex
             what: describe_required(&words[0]),
         };
     }
+    if message.starts_with("invalid type: unit variant") && message.contains("variant") {
+        // A choice that takes settings, written as a bare string.
+        let choice = value.trim_matches(|c| c == '"' || c == '\'');
+        return ConfigError::Inconsistent {
+            location,
+            key_path: path.clone(),
+            message: format!(
+                "{value} takes settings: write it as a table, `[{path}.{choice}]` with its keys \
+                 (an empty table gives the defaults)"
+            ),
+        };
+    }
     for prefix in ["invalid type: ", "invalid value: ", "invalid length "] {
         if let Some(rest) = message.strip_prefix(prefix) {
             let (found, expected) = rest.rsplit_once(", expected ").unwrap_or((rest, "?"));
