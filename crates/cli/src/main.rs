@@ -31,12 +31,16 @@ enum Command {
     /// Validate a config and print the experiment it describes (antennas, baselines, time
     /// samples, channels, visibilities, memory) without running anything heavy.
     Check(commands::check::Args),
+    /// Simulate the config's observation (sky, array, beams, noise) and write the visibility set
+    /// (.npy files and a JSON manifest) and a uv-coverage plot.
+    Simulate(commands::simulate::Args),
 }
 
 fn main() -> ExitCode {
     let cli = Cli::parse();
     let result = match cli.command {
         Command::Check(args) => commands::check::run(&args),
+        Command::Simulate(args) => commands::simulate::run(&args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

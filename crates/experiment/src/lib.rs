@@ -19,5 +19,6 @@
 
 pub mod config;
 pub mod scenario;
+pub mod simulation;
 
 pub use config::{load_config, parse_config, Config, ConfigError};

@@ -1,6 +1,7 @@
 //! One module per subcommand; each has an `Args` (clap) and a `run`.
 
 pub mod check;
+pub mod simulate;
 
 use std::fmt;
 
@@ -17,7 +18,6 @@ impl Failure {
     }
 
     /// Something failed while running: exit code 1.
-    #[allow(dead_code)]
     pub fn running(error: impl std::error::Error) -> Self {
         Self { message: chain(&error), bad_input: false }
     }

@@ -31,4 +31,35 @@ pub enum ScenarioError {
         #[source]
         source: beamfloor_array::ArrayError,
     },
+    /// The beam crate refused the beam described under `key`.
+    #[error("{key}: {source}")]
+    Beam {
+        /// Config section or key the values came from.
+        key: &'static str,
+        /// What the beam crate said.
+        #[source]
+        source: beamfloor_beam::BeamError,
+    },
+    /// The sky crate refused source number `index` (0-based) of `[[sky.source]]`.
+    #[error("sky.source[{index}]: {source}")]
+    Sky {
+        /// 0-based index into `[[sky.source]]`.
+        index: usize,
+        /// What the sky crate said.
+        #[source]
+        source: beamfloor_sky::SkyError,
+    },
+    /// A valid config value that this version cannot carry out.
+    #[error("{key} = {value}: {allowed}")]
+    Unsupported {
+        /// The key.
+        key: &'static str,
+        /// The value, printed.
+        value: String,
+        /// What is possible instead.
+        allowed: &'static str,
+    },
+    /// The truth prediction failed.
+    #[error("simulating the truth: {0}")]
+    Predict(#[from] beamfloor_predict::PredictError),
 }
