@@ -19,6 +19,7 @@
 
 pub mod config;
 pub mod scenario;
+pub mod pictures;
 pub mod simulation;
 
 pub use config::{load_config, parse_config, Config, ConfigError};

@@ -1,6 +1,7 @@
 //! One module per subcommand; each has an `Args` (clap) and a `run`.
 
 pub mod check;
+pub mod plot_beam;
 pub mod simulate;
 
 use std::fmt;

@@ -115,11 +115,14 @@ pub enum Mount {
 }
 
 /// `[beam.pointing]`: pointing errors per antenna, in arcsec on the sky; the three parts add.
+/// Offsets live in the antenna frame (cross-elevation x, elevation y), which for an alt-az mount
+/// turns on the sky with the parallactic angle; at parallactic angle 0, x is east and y north.
 #[derive(Debug, Clone, PartialEq, Default, Serialize, Deserialize)]
 #[serde(deny_unknown_fields, default)]
 pub struct PointingConfig {
-    /// Fixed offsets `[east, north]` in arcsec: either one pair, applied to every antenna, or
-    /// one pair per antenna in antenna order. Default: `[]` (none).
+    /// Fixed offsets `[x, y]` in arcsec (antenna frame, see above): either one pair, applied to
+    /// every antenna, or one pair per antenna in antenna order (the simulation currently takes
+    /// only the single pair and says so). Default: `[]` (none).
     #[serde(deserialize_with = "super::pairs::pairs")]
     pub offsets_arcsec: Vec<[f64; 2]>,
     /// Standard deviation of a random, constant offset per antenna and axis, arcsec (≥ 0).
