@@ -7,8 +7,15 @@
 //! grid and w-stacking with the same kernel along w, and [`DirectOperator`], a direct Fourier sum
 //! (slow, exact, the reference). On top sit natural/uniform/Briggs [`Weighting`], and
 //! [`dirty_images`] / [`predict_visibilities`] for Stokes I with N Taylor terms. It knows nothing
-//! about configs, files, beams (A-projection operators implement the same trait elsewhere) or
-//! deconvolution.
+//! about configs, files or deconvolution, and sees beams only through
+//! [`beamfloor_core::VoltageBeam`].
+//!
+//! A-projection ([`AProjection`]) applies the imaging beam's baseline product |E_p|² of antenna 0
+//! (all antennas share one pattern; checked unless [`AProjectionParams::assume_identical_antennas`])
+//! per (parallactic-angle bin, channel, hand) on top of the same gridder, with the sensitivity
+//! image and [`flat_noise`] / [`flat_sky`] normalisation; wideband A-projection grids with the
+//! beam at a conjugate frequency ([`reciprocal_conjugate_frequency`] or the numerically
+//! [`fitted_conjugate_frequencies`]). [`DirectBeamOperator`] is its direct-sum reference.
 //!
 //! Conventions:
 //! - uvw in metres per row (antenna2 − antenna1), converted to wavelengths per channel as ν/c.
@@ -29,6 +36,7 @@
 //! assert_eq!(plan.kernel().support(), 8); // ε = 1e-7 → W = 8
 //! ```
 
+mod aproj;
 mod direct;
 mod dirty;
 mod error;
@@ -41,6 +49,11 @@ mod plan;
 mod quadrature;
 mod weighting;
 
+pub use aproj::{
+    first_null_radius_rad, fitted_conjugate_frequencies, flat_noise, flat_sky, main_lobe_mismatch,
+    reciprocal_conjugate_frequency, screen_cache_bytes, AProjection, AProjectionParams,
+    ConjugateFitParams, ConjugateFrequency, DirectBeamOperator,
+};
 pub use direct::DirectOperator;
 pub use dirty::{dirty_images, predict_visibilities, DirtyImages, TaylorTerms};
 pub use error::ImagingError;
