@@ -1,6 +1,7 @@
 //! Rough throughput of the gridder (visibilities per second) on a synthetic observation.
 //!
 //! Run: `RAYON_NUM_THREADS=2 cargo run --release -p beamfloor-imaging --example throughput`
+//! (add `-- --no-w` to skip the w-stacking cases).
 //! A "visibility" here is one (row, channel) sample with both hands (summed for Stokes I).
 use beamfloor_core::{Correlation, ImageGeometry, SPEED_OF_LIGHT_M_PER_S};
 use beamfloor_imaging::{
@@ -60,7 +61,12 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
         geometry.ny,
         rayon::current_num_threads()
     );
-    for w_term in [WTerm::Ignore, WTerm::Stack] {
+    let w_terms: &[WTerm] = if std::env::args().any(|a| a == "--no-w") {
+        &[WTerm::Ignore]
+    } else {
+        &[WTerm::Ignore, WTerm::Stack]
+    };
+    for &w_term in w_terms {
         for epsilon in [1e-4, 1e-7] {
             let t = Instant::now();
             let plan = GridPlan::new(geometry, &GridderParams { epsilon, w_term }, w_range)?;

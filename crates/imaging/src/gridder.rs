@@ -1,6 +1,7 @@
 //! The gridding and degridding passes of [`GridPlan`]: ES-kernel spreading on the padded grid,
 //! one FFT per output image and w plane, and the grid correction.
 use crate::error::ImagingError;
+use crate::kernel_poly::MAX_TAPS;
 use crate::operator::{check_degrid_args, check_grid_args, GridOutput, ImagingOperator};
 use crate::params::w_range_of;
 use crate::plan::GridPlan;
@@ -14,34 +15,109 @@ use std::ops::Range;
 
 const ZERO: Complex64 = Complex64 { re: 0.0, im: 0.0 };
 
-/// Kernel taps and wrapped grid indices of one sample (scratch reused across samples).
+/// Kernel taps and grid indices of one sample (scratch reused across samples). When the
+/// footprint does not cross the padded grid's edge (`contiguous`), rows start at `y0 · pad_nx +
+/// x0` and the W cells of each row are one slice; otherwise `ix`/`iy` hold wrapped indices.
 struct Footprint {
-    kx: Vec<f64>,
-    ky: Vec<f64>,
+    kx: [f64; MAX_TAPS],
+    ky: [f64; MAX_TAPS],
+    x0: usize,
+    y0: usize,
+    contiguous: bool,
     ix: Vec<usize>,
     iy: Vec<usize>,
 }
 
 impl Footprint {
     fn new(w: usize) -> Self {
-        Self { kx: vec![0.0; w], ky: vec![0.0; w], ix: vec![0; w], iy: vec![0; w] }
+        Self {
+            kx: [0.0; MAX_TAPS],
+            ky: [0.0; MAX_TAPS],
+            x0: 0,
+            y0: 0,
+            contiguous: false,
+            ix: vec![0; w],
+            iy: vec![0; w],
+        }
     }
 }
 
 impl GridPlan {
-    /// Fill `fp` for a sample at (u, v) wavelengths.
+    /// Fill `fp` for a sample at (u, v) wavelengths (taps from the piecewise polynomial).
     #[inline]
     fn footprint(&self, u: f64, v: f64, fp: &mut Footprint) {
         let cell = self.geometry.cell_rad;
         let sx = -u * cell * self.pad_nx as f64;
         let sy = v * cell * self.pad_ny as f64;
-        let gx = self.kernel.taps(sx, &mut fp.kx);
-        let gy = self.kernel.taps(sy, &mut fp.ky);
+        let gx = self.poly.taps(sx, &mut fp.kx);
+        let gy = self.poly.taps(sy, &mut fp.ky);
         let (px, py) = (self.pad_nx as i64, self.pad_ny as i64);
+        let w = self.kernel.support() as i64;
+        if gx >= 0 && gy >= 0 && gx + w <= px && gy + w <= py {
+            fp.contiguous = true;
+            fp.x0 = gx as usize;
+            fp.y0 = gy as usize;
+            return;
+        }
+        fp.contiguous = false;
         for (i, (a, b)) in fp.ix.iter_mut().zip(fp.iy.iter_mut()).enumerate() {
             *a = (gx + i as i64).rem_euclid(px) as usize;
             *b = ((gy + i as i64).rem_euclid(py) as usize) * self.pad_nx;
         }
+    }
+
+    /// Add `val` ψ_x ψ_y over the footprint into `grid`.
+    #[inline]
+    fn add_footprint(&self, fp: &Footprint, val: Complex64, grid: &mut [Complex64]) {
+        let w = self.kernel.support();
+        let (kx, ky) = (&fp.kx[..w], &fp.ky[..w]);
+        if fp.contiguous {
+            let mut start = fp.y0 * self.pad_nx + fp.x0;
+            for &ky in ky {
+                let vy = val * ky;
+                for (g, &kx) in grid[start..start + w].iter_mut().zip(kx) {
+                    *g += vy * kx;
+                }
+                start += self.pad_nx;
+            }
+        } else {
+            for (&row, &ky) in fp.iy.iter().zip(ky) {
+                let vy = val * ky;
+                let line = &mut grid[row..row + self.pad_nx];
+                for (&ix, &kx) in fp.ix.iter().zip(kx) {
+                    line[ix] += vy * kx;
+                }
+            }
+        }
+    }
+
+    /// Σ ψ_x ψ_y grid over the footprint.
+    #[inline]
+    fn read_footprint(&self, fp: &Footprint, grid: &[Complex64]) -> Complex64 {
+        let w = self.kernel.support();
+        let (kx, ky) = (&fp.kx[..w], &fp.ky[..w]);
+        let mut sum = ZERO;
+        if fp.contiguous {
+            let mut start = fp.y0 * self.pad_nx + fp.x0;
+            for &ky in ky {
+                let mut sx = ZERO;
+                for (g, &kx) in grid[start..start + w].iter().zip(kx) {
+                    sx += g * kx;
+                }
+                sum += sx * ky;
+                start += self.pad_nx;
+            }
+        } else {
+            for (&row, &ky) in fp.iy.iter().zip(ky) {
+                let line = &grid[row..row + self.pad_nx];
+                let mut sx = ZERO;
+                for (&ix, &kx) in fp.ix.iter().zip(kx) {
+                    sx += line[ix] * kx;
+                }
+                sum += sx * ky;
+            }
+        }
+        sum
     }
 
     /// Channels of a row with `w_m` metres that touch plane `p`, i.e. whose plane coordinate s
@@ -147,13 +223,7 @@ impl GridPlan {
                     if val == ZERO {
                         continue;
                     }
-                    for (&row, &ky) in fp.iy.iter().zip(&fp.ky) {
-                        let vy = val * ky;
-                        let line = &mut grid[row..row + self.pad_nx];
-                        for (&ix, &kx) in fp.ix.iter().zip(&fp.kx) {
-                            line[ix] += vy * kx;
-                        }
-                    }
+                    self.add_footprint(&fp, val, grid);
                 }
             }
         }
@@ -188,15 +258,7 @@ impl GridPlan {
                     if f[c] == 0.0 {
                         continue;
                     }
-                    let mut sum = ZERO;
-                    for (&row, &ky) in fp.iy.iter().zip(&fp.ky) {
-                        let line = &grid[row..row + self.pad_nx];
-                        let mut sx = ZERO;
-                        for (&ix, &kx) in fp.ix.iter().zip(&fp.kx) {
-                            sx += line[ix] * kx;
-                        }
-                        sum += sx * ky;
-                    }
+                    let sum = self.read_footprint(&fp, grid);
                     acc += sum * f[c];
                 }
                 out[k * n_chan + c] += acc * kw;

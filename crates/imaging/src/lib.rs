@@ -43,6 +43,7 @@ mod error;
 mod fft2;
 mod gridder;
 mod kernel;
+mod kernel_poly;
 mod operator;
 mod params;
 mod plan;

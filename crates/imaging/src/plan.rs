@@ -1,6 +1,7 @@
 use crate::error::ImagingError;
 use crate::fft2::Fft2;
 use crate::kernel::EsKernel;
+use crate::kernel_poly::PolyKernel;
 use crate::params::{GridderParams, WRange, WTerm};
 use beamfloor_core::ImageGeometry;
 use ndarray::Array2;
@@ -54,6 +55,8 @@ pub struct GridPlan {
     pub(crate) geometry: ImageGeometry,
     pub(crate) params: GridderParams,
     pub(crate) kernel: EsKernel,
+    /// Piecewise-polynomial taps of `kernel` (the fast path of [`EsKernel::taps`]).
+    pub(crate) poly: PolyKernel,
     pub(crate) pad_nx: usize,
     pub(crate) pad_ny: usize,
     pub(crate) fft_inverse: Fft2,
@@ -160,6 +163,7 @@ impl GridPlan {
         Ok(Self {
             geometry,
             params: *params,
+            poly: PolyKernel::new(&kernel),
             kernel,
             pad_nx,
             pad_ny,
