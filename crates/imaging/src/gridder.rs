@@ -205,13 +205,21 @@ impl GridPlan {
         let mut values = vec![ZERO; sources.len()];
         let mut grids: Option<Vec<Vec<Complex64>>> = None;
         let freqs = &vis.frequencies_hz;
+        let (n_chan, n_corr) = (vis.n_channels(), vis.n_correlations());
         for r in rows {
             let (um, vm, wm) = (vis.uvw_m[[r, 0]], vis.uvw_m[[r, 1]], vis.uvw_m[[r, 2]]);
             for c in self.channels_on_plane(wm, freqs, p) {
                 let scale = freqs[c] / SPEED_OF_LIGHT_M_PER_S;
                 let kw = self.plane_weight(wm * scale, p);
                 for (v, src) in values.iter_mut().zip(sources) {
-                    *v = src.slice(ndarray::s![r, c, ..]).iter().sum();
+                    // Contiguous sources (the common case) are summed from the raw slice.
+                    *v = match src.as_slice() {
+                        Some(all) => {
+                            let start = (r * n_chan + c) * n_corr;
+                            all[start..start + n_corr].iter().sum()
+                        }
+                        None => src.slice(ndarray::s![r, c, ..]).iter().sum(),
+                    };
                 }
                 if values.iter().all(|v| *v == ZERO) || kw == 0.0 {
                     continue;
