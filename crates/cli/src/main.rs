@@ -34,6 +34,10 @@ enum Command {
     /// Simulate the config's observation (sky, array, beams, noise) and write the visibility set
     /// (.npy files and a JSON manifest) and a uv-coverage plot.
     Simulate(commands::simulate::Args),
+    /// Simulate once, image the same visibilities with every strategy, deconvolve, score
+    /// against the truth and write a run folder with report.html. Without CONFIG the built-in
+    /// demo runs.
+    Run(commands::run::Args),
     /// Draw the truth beam: power at the band edges, instantaneous minus average beam, and P and
     /// |ν ∂P/∂ν| along a radius.
     PlotBeam(commands::plot_beam::Args),
@@ -44,6 +48,7 @@ fn main() -> ExitCode {
     let result = match cli.command {
         Command::Check(args) => commands::check::run(&args),
         Command::Simulate(args) => commands::simulate::run(&args),
+        Command::Run(args) => commands::run::run(&args),
         Command::PlotBeam(args) => commands::plot_beam::run(&args),
     };
     match result {

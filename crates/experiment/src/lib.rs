@@ -18,6 +18,7 @@
 //! ```
 
 pub mod config;
+pub mod run;
 pub mod scenario;
 pub mod pictures;
 pub mod simulation;

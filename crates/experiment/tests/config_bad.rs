@@ -156,6 +156,11 @@ const CASES: &[Case] = &[
         fragments: &["sky.source[0].flux_jy = nan: must be > 0 (Jy)"],
     },
     Case {
+        file: "pb_cutoff_above_one",
+        at: "33:13",
+        fragments: &["imaging.pb_cutoff = 1.5: must be within (0, 1)"],
+    },
+    Case {
         file: "clean_gain_too_big",
         at: "43:8",
         fragments: &["strategy[1].clean.gain = 1.5: must be within (0, 1]"],

@@ -40,6 +40,7 @@ mod error;
 mod fits_meta;
 mod fits_read;
 mod fits_write;
+mod html;
 mod png_bars;
 mod png_canvas;
 mod png_image;
@@ -55,6 +56,9 @@ pub use fits_meta::{
 };
 pub use fits_read::read_fits;
 pub use fits_write::{write_fits_cube, write_fits_image};
+pub use html::{
+    escape_html, render_html, write_html, write_text_file, HtmlBlock, HtmlFigure, HtmlPage, HtmlSection,
+};
 pub use png_bars::{write_bar_chart, BarChart};
 pub use png_image::{write_image_png, ImagePngOptions};
 pub use png_lines::{write_line_plot, AxisScale, LinePlot, Series};

@@ -2,6 +2,7 @@
 
 pub mod check;
 pub mod plot_beam;
+pub mod run;
 pub mod simulate;
 
 use std::fmt;

@@ -29,6 +29,15 @@ pub struct ImagingConfig {
     /// field and the largest |w|, chosen by the imaging code. Default: absent.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub w_planes: Option<u32>,
+    /// Strategies without A-projection divide their images by the averaged primary beam; pixels
+    /// where that beam's power at the reference frequency falls below this fraction of its peak
+    /// are blanked (NaN), within (0, 1). Default: `0.05`.
+    #[serde(default = "default_pb_cutoff")]
+    pub pb_cutoff: f64,
+}
+
+fn default_pb_cutoff() -> f64 {
+    0.05
 }
 
 impl Default for ImagingConfig {
@@ -42,6 +51,7 @@ impl Default for ImagingConfig {
             grid_upsampling: 2.0,
             w_method: WMethod::WStacking,
             w_planes: None,
+            pb_cutoff: default_pb_cutoff(),
         }
     }
 }
@@ -112,6 +122,14 @@ impl ImagingConfig {
             c.fail("imaging.accuracy", self.accuracy, "must be within [1e-14, 1e-2]");
         }
         c.in_range("imaging.grid_upsampling", self.grid_upsampling, 1.2, 4.0, "");
+        let cut = self.pb_cutoff;
+        if !(cut.is_finite() && cut > 0.0 && cut < 1.0) {
+            c.fail(
+                "imaging.pb_cutoff",
+                cut,
+                "must be within (0, 1) (fraction of the beam's peak power)",
+            );
+        }
         if let Some(planes) = self.w_planes {
             if !(1..=4096).contains(&planes) {
                 c.fail("imaging.w_planes", planes, "must be within 1..=4096");

@@ -1,0 +1,47 @@
+//! The experiment runner: simulate once, image the same visibilities with every strategy,
+//! deconvolve, score against the truth, and write the run folder.
+//!
+//! Model convention: plain and w gridding have no beam in their operator, so their dirty images,
+//! CLEAN models and restored images are the *apparent* sky, sky × (time- and frequency-averaged
+//! beam). The major cycle degrids the apparent model through the same operator, which is
+//! consistent because the model already contains the beam it lacks. After restoration the
+//! Taylor images are divided by the averaged, azimuthally symmetrized beam's own Taylor
+//! coefficients P_t (see [`divide_beam_taylor`]) and blanked (NaN) where P_0 is below
+//! `[imaging] pb_cutoff` of its peak; that is the *sky* frame, where restored images, α and the
+//! error image (restored − truth ⊗ restoring beam) are judged. The floor is measured on the I0
+//! residual in the apparent frame, whose thermal noise is flat across the image and the same for
+//! every strategy, so floors compare across strategies and with the predicted σ_img.
+//! A-projection strategies are refused in this version (see [`build_operator`]).
+//!
+//! Run folder:
+//! ```text
+//! OUT/config.resolved.toml   manifest.json   metrics.json   metrics.csv   sources.csv
+//!     radial.csv   report.html   visibilities/ (reused when its truth hash matches)
+//!     plots/ uv-coverage.png beam-profile.png floors.png source-flux-errors.png
+//!            source-alpha-errors.png radial-rms.png
+//!     strategies/<name>/ restored.fits residual.fits model.fits psf.fits [alpha.fits]
+//!                        restored.png residual.png error.png
+//! ```
+
+mod error;
+mod noise;
+mod operator;
+mod outputs;
+mod page;
+mod pbcor;
+mod residual;
+mod runner;
+mod strategy;
+mod tables;
+mod truth;
+
+pub use beamfloor_deconv::CycleReport;
+pub use error::RunError;
+pub use noise::image_noise_jy;
+pub use operator::{build_operator, check_strategies};
+pub use pbcor::{beam_validity, divide_beam_taylor};
+pub use residual::OperatorResiduals;
+pub use runner::{run_experiment, RunObserver, RunSummary, StrategySummary};
+pub use strategy::{image_strategy, BeamTaylor, StrategyImages};
+pub use tables::{short_number, table_csv, table_json};
+pub use truth::{channel_weights, source_truths, truth_convolved_i0};

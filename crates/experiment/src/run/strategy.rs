@@ -1,0 +1,168 @@
+//! One strategy: operator, PSFs, restoring beam, Cotton–Schwab CLEAN, restoration, primary-beam
+//! correction and spectral maps.
+
+use beamfloor_core::ImageGeometry;
+use beamfloor_deconv::{
+    fit_restoring_beam, restore, run_major_cycles, spectral_maps, BeamFitParams, CycleReport,
+    MajorCycleParams, MajorStop, MinorCyclePlan, RestoringBeam, ScaleSet, SpectralMapParams,
+    Threshold,
+};
+use beamfloor_imaging::{GridOutput, TaylorTerms, WRange};
+use beamfloor_predict::VisSet;
+use ndarray::{Array2, Array3};
+use num_complex::Complex64;
+
+use super::operator::build_operator;
+use super::pbcor::{beam_validity, divide_beam_taylor};
+use super::RunError;
+use crate::config::{CleanThreshold, Config, Gridding};
+
+/// What imaging one strategy produced. Images are `[ny, nx]` on the run's geometry.
+pub struct StrategyImages {
+    /// The strategy's name.
+    pub name: String,
+    /// Number of Taylor terms N.
+    pub n_terms: usize,
+    /// Model Taylor images, Jy/pixel, apparent frame (sky × averaged beam) for plain/w.
+    pub model: Vec<Array2<f64>>,
+    /// Final residual Taylor images (normalised like the PSFs), apparent frame, Jy/beam.
+    pub residuals: Vec<Array2<f64>>,
+    /// Restored Taylor images in the apparent frame, Jy/beam.
+    pub restored_apparent: Vec<Array2<f64>>,
+    /// Restored Taylor images in the sky frame (primary-beam corrected; NaN where blanked).
+    pub restored_sky: Vec<Array2<f64>>,
+    /// Spectral index α (sky frame), when N ≥ 2.
+    pub alpha: Option<Array2<f64>>,
+    /// PSF_0 on the doubled grid (peak 1 at its centre).
+    pub psf: Array2<f64>,
+    /// Geometry of the PSF grid.
+    pub psf_geometry: ImageGeometry,
+    /// The fitted restoring beam.
+    pub beam: RestoringBeam,
+    /// Pixels trusted after primary-beam correction.
+    pub validity: Array2<bool>,
+    /// One report per exact residual.
+    pub cycles: Vec<CycleReport>,
+    /// Why CLEAN stopped.
+    pub stop: MajorStop,
+    /// Wall time, s.
+    pub seconds: f64,
+}
+
+/// The averaged beam's Taylor coefficients P_t for a strategy (None: no beam to divide by).
+pub type BeamTaylor = Option<Vec<Array2<f64>>>;
+
+/// Images, deconvolves and restores strategy `index` of `config` on `vis`.
+///
+/// `weights` are the imaging weights (zero where flagged), `sigma_img` the predicted thermal
+/// noise of the I0 image (Jy/beam), `beam_taylor` the averaged beam's Taylor coefficients for the
+/// primary-beam correction of plain and w gridding. `progress` receives each major cycle.
+#[allow(clippy::too_many_arguments)]
+pub fn image_strategy(
+    config: &Config,
+    index: usize,
+    vis: &VisSet,
+    weights: &Array3<f64>,
+    geometry: ImageGeometry,
+    sigma_img: f64,
+    beam_taylor: &BeamTaylor,
+    progress: &mut dyn FnMut(&CycleReport),
+) -> Result<StrategyImages, RunError> {
+    let start = std::time::Instant::now();
+    let strategy = &config.strategy[index];
+    let name = strategy.name.clone();
+    let imaging = |source| RunError::Imaging { strategy: name.clone(), source };
+    let deconv = |source| RunError::Deconv { strategy: name.clone(), source };
+    let n_terms = strategy.taylor_terms() as usize;
+    let ref_freq_hz = config.observation.reference_freq_ghz() * 1e9;
+    let taylor = TaylorTerms { n_terms, ref_freq_hz };
+    let w_range = WRange::of_visibilities(vis).map_err(imaging)?;
+    let operator = build_operator(config, index, geometry, w_range)?;
+
+    // Spectral PSFs on a grid twice the image's size (the deconvolution crate's recommendation:
+    // a component anywhere in the image then has its PSF patch over the whole image).
+    let psf_geometry = ImageGeometry::new(2 * geometry.nx, 2 * geometry.ny, geometry.cell_rad);
+    let psf_operator = build_operator(config, index, psf_geometry, w_range)?;
+    let psf_values = weights.mapv(|w| Complex64::new(w, 0.0));
+    let outputs: Vec<GridOutput> = (0..2 * n_terms - 1)
+        .map(|t| GridOutput {
+            source: 0,
+            channel_factors: taylor.channel_weights(t, &vis.frequencies_hz),
+        })
+        .collect();
+    let sum_weights = weights.sum();
+    let mut psfs = psf_operator.grid(vis, &[psf_values.view()], &outputs).map_err(imaging)?;
+    drop(psf_operator);
+    for p in psfs.iter_mut() {
+        *p /= sum_weights;
+    }
+    let beam = fit_restoring_beam(&psfs[0], geometry.cell_rad, &BeamFitParams::default())
+        .map_err(deconv)?;
+    let scales = ScaleSet::gaussian(&strategy.scales_px);
+    let plan = MinorCyclePlan::new(&psfs, n_terms, &scales).map_err(deconv)?;
+
+    let clean = &strategy.clean;
+    let threshold = match clean.threshold() {
+        CleanThreshold::Jy(t) => Threshold::Jy(t),
+        CleanThreshold::Sigma(n_sigma) => Threshold::Noise { n_sigma, noise_jy: sigma_img },
+    };
+    let params = MajorCycleParams {
+        loop_gain: clean.gain,
+        threshold,
+        max_iterations: clean.max_iterations as usize,
+        max_major_cycles: clean.max_major_cycles as usize,
+        ..MajorCycleParams::default()
+    };
+    let mut imager =
+        super::residual::OperatorResiduals::new(operator.as_ref(), vis, weights, taylor);
+    let result =
+        run_major_cycles(&mut imager, &geometry, &plan, &params, None, progress).map_err(deconv)?;
+    let restored =
+        restore(&result.model, &result.residuals, plan.point_hessian(), &beam, geometry.cell_rad)
+            .map_err(deconv)?;
+
+    // Plain and w gridding image the apparent sky; divide by the averaged beam's Taylor terms.
+    let corrects_beam = matches!(strategy.gridding, Gridding::Plain | Gridding::W);
+    let (restored_sky, residual_sky, validity) = match (beam_taylor, corrects_beam) {
+        (Some(p), true) => {
+            let valid = beam_validity(&p[0], config.imaging.pb_cutoff);
+            (
+                divide_beam_taylor(&restored.images, p, &valid),
+                divide_beam_taylor(&restored.residual_coefficients, p, &valid),
+                valid,
+            )
+        }
+        _ => (
+            restored.images.clone(),
+            restored.residual_coefficients.clone(),
+            Array2::from_elem((geometry.ny, geometry.nx), true),
+        ),
+    };
+    let alpha = if n_terms >= 2 {
+        let maps = spectral_maps(
+            &restored_sky,
+            &residual_sky,
+            &SpectralMapParams { noise_jy: sigma_img, ..SpectralMapParams::default() },
+        )
+        .map_err(deconv)?;
+        Some(maps.alpha)
+    } else {
+        None
+    };
+    Ok(StrategyImages {
+        name: name.clone(),
+        n_terms,
+        model: result.model,
+        residuals: result.residuals,
+        restored_apparent: restored.images,
+        restored_sky,
+        alpha,
+        psf: psfs.swap_remove(0),
+        psf_geometry,
+        beam,
+        validity,
+        cycles: result.cycles,
+        stop: result.stop,
+        seconds: start.elapsed().as_secs_f64(),
+    })
+}

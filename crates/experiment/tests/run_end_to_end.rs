@@ -1,0 +1,144 @@
+//! End to end: a small wideband run (9 antennas, 2 h, 4 channels over 1–2 GHz, 128² image,
+//! plain and w strategies, noise on) writes every promised file, a page whose every link
+//! exists, parseable metrics, and the radiometer σ_img.
+
+use std::path::PathBuf;
+
+use beamfloor_experiment::run::{run_experiment, RunObserver};
+use beamfloor_experiment::{load_config, parse_config};
+use beamfloor_predict::{stokes_i_image_noise_jy, unflagged_samples_per_correlation, NoiseModel};
+
+struct Quiet;
+impl RunObserver for Quiet {}
+
+fn small_config_path() -> PathBuf {
+    PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("tests/run_small.toml")
+}
+
+/// Every `src="…"` and `href="…"` value of the page.
+fn references(html: &str) -> Vec<String> {
+    let mut out = Vec::new();
+    for key in ["src=\"", "href=\""] {
+        let mut rest = html;
+        while let Some(i) = rest.find(key) {
+            rest = &rest[i + key.len()..];
+            let end = rest.find('"').unwrap_or(rest.len());
+            out.push(rest[..end].to_string());
+            rest = &rest[end..];
+        }
+    }
+    out
+}
+
+/// The folder a crosscheck export goes to (same rule as the other crates' export tests).
+fn crosscheck_dir() -> PathBuf {
+    std::env::var_os("BEAMFLOOR_CROSSCHECK_DIR").map(PathBuf::from).unwrap_or_else(|| {
+        PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("../../target/crosscheck")
+    })
+}
+
+#[test]
+fn small_run_writes_a_complete_folder() {
+    let path = small_config_path();
+    let config = load_config(&path).unwrap_or_else(|e| panic!("{e}"));
+    let out = crosscheck_dir().join("run_small");
+    let _ = std::fs::remove_dir_all(&out);
+    let summary =
+        run_experiment(&config, Some(&path), &out, &mut Quiet).unwrap_or_else(|e| panic!("{e}"));
+    assert!(!summary.reused_visibilities);
+
+    for f in [
+        "config.resolved.toml",
+        "manifest.json",
+        "metrics.json",
+        "metrics.csv",
+        "sources.csv",
+        "radial.csv",
+        "report.html",
+        "visibilities/manifest.json",
+        "plots/uv-coverage.png",
+        "plots/beam-profile.png",
+        "plots/floors.png",
+        "plots/radial-rms.png",
+        "plots/source-flux-errors.png",
+        "plots/source-alpha-errors.png",
+    ] {
+        assert!(out.join(f).is_file(), "missing {f}");
+    }
+    for s in ["plain", "w"] {
+        for f in [
+            "restored.fits",
+            "residual.fits",
+            "model.fits",
+            "psf.fits",
+            "alpha.fits",
+            "error.fits",
+            "restored.png",
+            "residual.png",
+            "error.png",
+        ] {
+            assert!(out.join("strategies").join(s).join(f).is_file(), "missing {s}/{f}");
+        }
+    }
+
+    // The page: well-formed enough to hold one html/body pair, no scripts or remote resources,
+    // and every relative reference resolves inside the run folder.
+    let html = std::fs::read_to_string(out.join("report.html")).unwrap();
+    assert!(html.starts_with("<!DOCTYPE html>") && html.trim_end().ends_with("</html>"));
+    assert_eq!(html.matches("<body>").count(), 1);
+    assert_eq!(html.matches("<table>").count(), html.matches("</table>").count());
+    assert!(!html.contains("<script") && !html.contains("http://") && !html.contains("https://"));
+    assert!(html.contains("simulations"), "the page must carry the caution");
+    let refs = references(&html);
+    assert!(refs.len() >= 10, "{refs:?}");
+    for r in refs {
+        assert!(out.join(&r).is_file(), "report.html references missing {r}");
+    }
+
+    // metrics.json parses and holds one summary row per strategy with a finite floor.
+    let metrics: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("metrics.json")).unwrap()).unwrap();
+    let rows = metrics["summary"].as_array().unwrap();
+    assert_eq!(rows.len(), 2);
+    for row in rows {
+        assert!(row["floor_rms_jy_per_beam"].as_f64().unwrap() > 0.0);
+    }
+    let manifest: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out.join("manifest.json")).unwrap()).unwrap();
+    assert_eq!(manifest["truth_hash"], serde_json::json!(config.truth_hash()));
+    assert_eq!(manifest["config_hash_sha256"].as_str().unwrap().len(), 64);
+
+    // σ_img for natural weighting equals the radiometer check value of the predict crate,
+    // σ / √(2 N) (Thompson, Moran & Swenson §6.2; both hands of Stokes I), to rounding.
+    let vis = beamfloor_report::read_visset(&out.join("visibilities")).unwrap();
+    let noise = NoiseModel {
+        sefd_jy: config.noise.sefd_jy,
+        correlator_efficiency: config.noise.efficiency,
+    };
+    let sigma = noise.sigma_jy(vis.channel_width_hz, vis.integration_s).unwrap();
+    let expected = stokes_i_image_noise_jy(sigma, unflagged_samples_per_correlation(&vis));
+    println!("σ_img runner {:.6e}, radiometer {:.6e}", summary.sigma_img_jy_per_beam, expected);
+    // Sums of ~10³ equal terms in f64: relative error ~1e-13.
+    assert!((summary.sigma_img_jy_per_beam / expected - 1.0).abs() < 1e-10);
+
+    // A second run into the same folder reuses the visibilities (same truth hash).
+    let again = run_experiment(&config, Some(&path), &out, &mut Quiet).unwrap();
+    assert!(again.reused_visibilities);
+    assert_eq!(again.strategies[0].floor_jy_per_beam, summary.strategies[0].floor_jy_per_beam);
+}
+
+#[test]
+fn a_projection_strategies_are_skipped_with_a_reason_and_cube_is_refused() {
+    let text = std::fs::read_to_string(small_config_path()).unwrap();
+    let with_a = format!("{text}\n[[strategy]]\nname = \"ap\"\ngridding = \"a\"\n");
+    let config = parse_config(&with_a, "with_a.toml").unwrap();
+    let out = tempfile::tempdir().unwrap();
+    let summary = run_experiment(&config, None, out.path(), &mut Quiet).unwrap();
+    assert_eq!(summary.skipped.len(), 1);
+    assert!(summary.skipped[0].1.contains("strategy[2] \"ap\": gridding"), "{:?}", summary.skipped);
+
+    let cube = text.replace("gridding = \"w\"", "gridding = \"w\"\nspectral = \"cube\"");
+    let config = parse_config(&cube, "cube.toml").unwrap();
+    let err = run_experiment(&config, None, out.path(), &mut Quiet).unwrap_err();
+    assert!(err.is_bad_input() && err.to_string().contains("spectral"), "{err}");
+}
