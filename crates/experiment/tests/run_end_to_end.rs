@@ -121,6 +121,23 @@ fn small_run_writes_a_complete_folder() {
     // Sums of ~10³ equal terms in f64: relative error ~1e-13.
     assert!((summary.sigma_img_jy_per_beam / expected - 1.0).abs() < 1e-10);
 
+    // Export for tests/crosscheck/test_run.py: the run folder and the phase centre (degrees).
+    let fits: Vec<String> = ["plain", "w"]
+        .iter()
+        .flat_map(|s| {
+            ["restored", "residual", "model", "psf", "alpha", "error"]
+                .map(|k| format!("strategies/{s}/{k}.fits"))
+        })
+        .collect();
+    let export = serde_json::json!({
+        "run_dir": out.canonicalize().unwrap(),
+        "fits": fits,
+        "phase_centre_ra_deg": vis.phase_centre_ra_rad.to_degrees(),
+        "phase_centre_dec_deg": vis.phase_centre_dec_rad.to_degrees(),
+        "cell_deg": config.imaging.cell_arcsec / 3600.0,
+    });
+    std::fs::write(crosscheck_dir().join("run_small.json"), export.to_string()).unwrap();
+
     // A second run into the same folder reuses the visibilities (same truth hash).
     let again = run_experiment(&config, Some(&path), &out, &mut Quiet).unwrap();
     assert!(again.reused_visibilities);
