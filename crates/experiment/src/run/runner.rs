@@ -169,12 +169,19 @@ pub fn run_experiment(
             minor_fwhm_rad: result.beam.minor_fwhm_rad,
             position_angle_rad: result.beam.position_angle_rad,
         };
+        // The metrics refuse NaN; blanked pixels (below the beam cut-off) are excluded through
+        // `validity` and enter the whole-image peak search as zeros.
+        let restored_finite: Vec<_> = result
+            .restored_sky
+            .iter()
+            .map(|im| im.mapv(|v| if v.is_finite() { v } else { 0.0 }))
+            .collect();
         let strategy_scores = score_strategy(
             &geometry,
             &metrics_beam,
             &sources,
             &beamfloor_metrics::StrategyImages {
-                restored_taylor: &result.restored_sky,
+                restored_taylor: &restored_finite,
                 residual_i0: &result.residuals[0],
                 truth_convolved_i0: Some(&truth_i0),
                 validity: Some(&result.validity),
