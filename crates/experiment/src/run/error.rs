@@ -26,6 +26,12 @@ pub enum RunError {
         /// What is possible instead.
         why: &'static str,
     },
+    /// No strategy produced an image (every one was unavailable or diverged).
+    #[error("no strategy could be imaged: {}", reasons.join("; "))]
+    NothingImaged {
+        /// Why each strategy was skipped.
+        reasons: Vec<String>,
+    },
     /// The imaging crate failed for a strategy.
     #[error("strategy \"{strategy}\": imaging: {source}")]
     Imaging {

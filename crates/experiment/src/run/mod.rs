@@ -11,7 +11,16 @@
 //! error image (restored − truth ⊗ restoring beam) are judged. The floor is measured on the I0
 //! residual in the apparent frame, whose thermal noise is flat across the image and the same for
 //! every strategy, so floors compare across strategies and with the predicted σ_img.
-//! A-projection strategies are refused in this version (see [`build_operator`]).
+//!
+//! A-projection strategies (`"a"`, `"wideband-a"`) put the beam in the operator: degrid applies
+//! the forward beam E_i E_j* per parallactic-angle bin, channel and hand. Their raw dirty image is
+//! ≈ W · I ⊗ PSF with the sensitivity W = Σ w A_grid A_data / Σ w. They deconvolve in the
+//! flat-noise frame: the major cycle hands the minor cycle residuals × g with g = 1/√W (zero where
+//! √W is below `pb_cutoff` of its peak), so the minor cycle sees ≈ √W · I ⊗ PSF (the PSF of the
+//! phase centre, from the plain w-stacking gridder) with bounded sidelobes, and its model × g is
+//! the sky that is degridded. Restored images × g are the sky frame; the flat-noise residual is
+//! their apparent frame for the floor (flat noise, sky weighted by ≈ P as in plain imaging), so
+//! floors compare with the other strategies.
 //!
 //! Run folder:
 //! ```text
@@ -23,6 +32,7 @@
 //!                        restored.png residual.png error.png
 //! ```
 
+mod aproj;
 mod error;
 mod noise;
 mod operator;
@@ -35,6 +45,7 @@ mod strategy;
 mod tables;
 mod truth;
 
+pub use aproj::{binned_imaging_beam, build_a_operator, parallactic_angle_bins, BinnedBeam};
 pub use beamfloor_deconv::CycleReport;
 pub use error::RunError;
 pub use noise::image_noise_jy;

@@ -10,9 +10,9 @@ use crate::config::{Config, Gridding, WMethod};
 /// (wavelengths) lies in `w_range`.
 ///
 /// `"plain"` is the ES-kernel gridder with the w-term ignored (a flat-sky transform), `"w"` the
-/// same gridder with w-stacking. The A-projection griddings (`"a"`, `"wideband-a"`) are not
-/// available in this version of the imaging crate and are refused with
-/// [`RunError::Unsupported`] naming the strategy and the key, before any heavy work starts.
+/// same gridder with w-stacking. For the A-projection griddings (`"a"`, `"wideband-a"`) this is
+/// the w-stacking gridder underneath the A-terms: the PSFs are made with it (the PSF at the phase
+/// centre, where the beam is 1), and [`super::aproj::build_a_operator`] wraps it with the beam.
 pub fn build_operator(
     config: &Config,
     index: usize,
@@ -38,17 +38,7 @@ pub fn build_operator(
                     "only \"w-stacking\" is implemented (it already uses the ES kernel along w)",
                 )),
             },
-            Gridding::A => return Err(unsupported(
-                "gridding",
-                "\"a\"".into(),
-                "A-projection operators are not available in this build; use \"plain\" or \"w\"",
-            )),
-            Gridding::WidebandA => return Err(unsupported(
-                "gridding",
-                "\"wideband-a\"".into(),
-                "wideband A-projection operators are not available in this build; use \"plain\" \
-                 or \"w\"",
-            )),
+            Gridding::A | Gridding::WidebandA => WTerm::Stack,
         };
     if config.imaging.w_planes.is_some() && w_term == WTerm::Stack {
         return Err(unsupported(

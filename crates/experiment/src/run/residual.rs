@@ -17,6 +17,11 @@ pub struct OperatorResiduals<'a> {
     taylor: TaylorTerms,
     sum_weights: f64,
     outputs: Vec<GridOutput>,
+    /// Per-pixel factor g for an operator with the beam inside (A-projection): the model the
+    /// minor cycle builds is multiplied by g before it is degridded, and every residual image by
+    /// g after gridding. With g = 1/√W (zero where blanked) the minor cycle works in the
+    /// flat-noise frame. None = 1.
+    normalisation: Option<Array2<f64>>,
 }
 
 impl<'a> OperatorResiduals<'a> {
@@ -34,7 +39,18 @@ impl<'a> OperatorResiduals<'a> {
                 channel_factors: taylor.channel_weights(t, &vis.frequencies_hz),
             })
             .collect();
-        Self { operator, vis, weights, taylor, sum_weights, outputs }
+        Self { operator, vis, weights, taylor, sum_weights, outputs, normalisation: None }
+    }
+
+    /// Uses the per-pixel factor g on both sides of the operator: model × g is degridded and the
+    /// residuals are returned × g. For an A-projection operator with sensitivity W and
+    /// g = 1/√W (zero where W is too low to trust) the minor cycle then sees ≈ √W · I ⊗ PSF,
+    /// whose sidelobes stay bounded everywhere (a flat-sky frame, 1/W, would amplify the
+    /// sidelobes of bright sources by A(x)/A(y) where the beam is weak and make CLEAN diverge),
+    /// and the model it builds is √W · I, turned back into the sky before prediction.
+    pub fn with_normalisation(mut self, factor: Array2<f64>) -> Self {
+        self.normalisation = Some(factor);
+        self
     }
 }
 
@@ -43,8 +59,12 @@ impl ResidualImager for OperatorResiduals<'_> {
         let imager = |e: beamfloor_imaging::ImagingError| DeconvError::Imager(e.to_string());
         let mut data = self.vis.data.clone();
         if model.iter().any(|m| m.iter().any(|&v| v != 0.0)) {
+            let sky: Vec<Array2<f64>> = match &self.normalisation {
+                Some(g) => model.iter().map(|m| m * g).collect(),
+                None => model.to_vec(),
+            };
             let predicted =
-                predict_visibilities(self.operator, self.vis, model, self.taylor.ref_freq_hz)
+                predict_visibilities(self.operator, self.vis, &sky, self.taylor.ref_freq_hz)
                     .map_err(imager)?;
             data -= &predicted;
         }
@@ -53,6 +73,9 @@ impl ResidualImager for OperatorResiduals<'_> {
             self.operator.grid(self.vis, &[data.view()], &self.outputs).map_err(imager)?;
         for im in images.iter_mut() {
             *im /= self.sum_weights;
+            if let Some(factor) = &self.normalisation {
+                *im *= factor;
+            }
         }
         Ok(images)
     }

@@ -4,7 +4,7 @@ use std::path::{Path, PathBuf};
 use std::time::Instant;
 
 use beamfloor_core::ImageGeometry;
-use beamfloor_deconv::CycleReport;
+use beamfloor_deconv::{CycleReport, DeconvError};
 use beamfloor_imaging::{imaging_weights, Weighting};
 use beamfloor_metrics::{score_strategy, RestoringBeam as MetricsBeam, ScoreParams, Scores};
 use beamfloor_predict::VisSet;
@@ -24,7 +24,8 @@ pub trait RunObserver: Sync {
     fn simulated_rows(&self, _done: usize, _total: usize) {}
     /// Strategy `index` of `count` starts.
     fn strategy(&mut self, _index: usize, _count: usize, _name: &str) {}
-    /// A strategy is skipped because this build cannot image it (`reason` says why).
+    /// A strategy is skipped because this build cannot image it, or its CLEAN diverged
+    /// (`reason` says why).
     fn skipped(&mut self, _name: &str, _reason: &str) {}
     /// A major cycle of the current strategy finished.
     fn cycle(&mut self, _name: &str, _report: &CycleReport) {}
@@ -58,7 +59,8 @@ pub struct RunSummary {
     pub reused_visibilities: bool,
     /// One entry per strategy that ran, in config order.
     pub strategies: Vec<StrategySummary>,
-    /// Strategies skipped because this build cannot image them: (name, reason).
+    /// Strategies skipped because this build cannot image them or their CLEAN diverged:
+    /// (name, reason).
     pub skipped: Vec<(String, String)>,
     /// Wall time per stage, s, in order.
     pub timings: Vec<(String, f64)>,
@@ -132,7 +134,7 @@ pub fn run_experiment(
     let mut images: Vec<StrategyImages> = Vec::with_capacity(count);
     let mut scores: Vec<(String, Scores)> = Vec::with_capacity(count);
     let mut truths = Vec::with_capacity(count);
-    let skipped: Vec<(String, String)> = unavailable
+    let mut skipped: Vec<(String, String)> = unavailable
         .iter()
         .map(|(i, e)| (config.strategy[*i].name.clone(), e.to_string()))
         .collect();
@@ -145,16 +147,29 @@ pub fn run_experiment(
         let t = Instant::now();
         let n_terms = config.strategy[index].taylor_terms() as usize;
         let beam_taylor = averaged_beam_taylor(config, index, &scenario, &vis, &geometry, n_terms)?;
-        let result = image_strategy(
+        let imaged = image_strategy(
             config,
             index,
+            &scenario.observation,
             &vis,
             &weights,
             geometry,
             sigma_img,
             &beam_taylor,
             &mut |report| observer.cycle(&name, report),
-        )?;
+        );
+        // A strategy whose CLEAN diverges is a result, not a crash: the others still run, and the
+        // report lists it with the numbers of the divergence.
+        let result = match imaged {
+            Ok(result) => result,
+            Err(e @ RunError::Deconv { source: DeconvError::MajorCycleDiverged { .. }, .. }) => {
+                let reason = e.to_string();
+                observer.skipped(&name, &reason);
+                skipped.push((name, reason));
+                continue;
+            }
+            Err(e) => return Err(e),
+        };
         let sources = source_truths(&scenario.sky, &vis.frequencies_hz, &chan_weights, n_terms)?;
         let truth_i0 = truth_convolved_i0(
             &scenario.sky,
@@ -195,6 +210,11 @@ pub fn run_experiment(
         images.push(result);
     }
 
+    if images.is_empty() {
+        return Err(RunError::NothingImaged {
+            reasons: skipped.iter().map(|(name, why)| format!("{name}: {why}")).collect(),
+        });
+    }
     observer.stage("writing outputs");
     let t = Instant::now();
     let context = OutputContext {

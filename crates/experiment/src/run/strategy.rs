@@ -1,17 +1,19 @@
 //! One strategy: operator, PSFs, restoring beam, Cotton–Schwab CLEAN, restoration, primary-beam
 //! correction and spectral maps.
 
+use beamfloor_array::Observation;
 use beamfloor_core::ImageGeometry;
 use beamfloor_deconv::{
     fit_restoring_beam, restore, run_major_cycles, spectral_maps, BeamFitParams, CycleReport,
     MajorCycleParams, MajorStop, MinorCyclePlan, RestoringBeam, ScaleSet, SpectralMapParams,
     Threshold,
 };
-use beamfloor_imaging::{GridOutput, TaylorTerms, WRange};
+use beamfloor_imaging::{GridOutput, ImagingOperator, TaylorTerms, WRange};
 use beamfloor_predict::VisSet;
 use ndarray::{Array2, Array3};
 use num_complex::Complex64;
 
+use super::aproj::{binned_imaging_beam, build_a_operator, kernel_max_freq_hz};
 use super::operator::build_operator;
 use super::pbcor::{beam_validity, divide_beam_taylor};
 use super::RunError;
@@ -56,11 +58,14 @@ pub type BeamTaylor = Option<Vec<Array2<f64>>>;
 ///
 /// `weights` are the imaging weights (zero where flagged), `sigma_img` the predicted thermal
 /// noise of the I0 image (Jy/beam), `beam_taylor` the averaged beam's Taylor coefficients for the
-/// primary-beam correction of plain and w gridding. `progress` receives each major cycle.
+/// primary-beam correction of plain and w gridding, `observation` the simulated observation
+/// (its timeline sets the A-projection strategies' parallactic-angle bins). `progress` receives
+/// each major cycle.
 #[allow(clippy::too_many_arguments)]
 pub fn image_strategy(
     config: &Config,
     index: usize,
+    observation: &Observation,
     vis: &VisSet,
     weights: &Array3<f64>,
     geometry: ImageGeometry,
@@ -77,7 +82,39 @@ pub fn image_strategy(
     let ref_freq_hz = config.observation.reference_freq_ghz() * 1e9;
     let taylor = TaylorTerms { n_terms, ref_freq_hz };
     let w_range = WRange::of_visibilities(vis).map_err(imaging)?;
-    let operator = build_operator(config, index, geometry, w_range)?;
+    let a_projection = matches!(strategy.gridding, Gridding::A | Gridding::WidebandA);
+    let binned = if a_projection {
+        let max_freq = kernel_max_freq_hz(config, index, &vis.frequencies_hz);
+        Some(binned_imaging_beam(config, index, observation, &geometry, max_freq)?)
+    } else {
+        None
+    };
+    let a_operator = match &binned {
+        Some(b) => {
+            Some(build_a_operator(config, index, geometry, w_range, b, &vis.frequencies_hz)?)
+        }
+        None => None,
+    };
+    let plain_operator = match a_operator {
+        Some(_) => None,
+        None => Some(build_operator(config, index, geometry, w_range)?),
+    };
+    let operator: &dyn ImagingOperator = match (&a_operator, &plain_operator) {
+        (Some(a), _) => a,
+        (None, Some(p)) => p.as_ref(),
+        (None, None) => unreachable!("one of the two operators is always built"),
+    };
+    // A-projection: the sensitivity W and the flat-noise factor g = 1/√W, zero where √W is below
+    // the primary-beam cut-off of its peak (W ≈ P², so the cut-off applies to √W as it does to P).
+    let sensitivity = match &a_operator {
+        Some(a) => Some(a.sensitivity_image(vis, weights).map_err(imaging)?),
+        None => None,
+    };
+    let flat_noise_factor = sensitivity.as_ref().map(|w| {
+        let peak = w.iter().copied().fold(0.0f64, f64::max);
+        let cut = config.imaging.pb_cutoff * config.imaging.pb_cutoff * peak;
+        w.mapv(|x| if x.is_finite() && x >= cut && x > 0.0 { 1.0 / x.sqrt() } else { 0.0 })
+    });
 
     // Spectral PSFs on a grid twice the image's size (the deconvolution crate's recommendation:
     // a component anywhere in the image then has its PSF patch over the whole image).
@@ -113,8 +150,10 @@ pub fn image_strategy(
         max_major_cycles: clean.max_major_cycles as usize,
         ..MajorCycleParams::default()
     };
-    let mut imager =
-        super::residual::OperatorResiduals::new(operator.as_ref(), vis, weights, taylor);
+    let mut imager = super::residual::OperatorResiduals::new(operator, vis, weights, taylor);
+    if let Some(g) = &flat_noise_factor {
+        imager = imager.with_normalisation(g.clone());
+    }
     let result =
         run_major_cycles(&mut imager, &geometry, &plan, &params, None, progress).map_err(deconv)?;
     let restored =
@@ -124,6 +163,27 @@ pub fn image_strategy(
     // Plain and w gridding image the apparent sky; divide by the averaged beam's Taylor terms.
     let corrects_beam = matches!(strategy.gridding, Gridding::Plain | Gridding::W);
     let (restored_sky, residual_sky, validity) = match (beam_taylor, corrects_beam) {
+        // A-projection: the flat-noise frame × g = 1/√W is the sky; blank where g = 0.
+        _ if flat_noise_factor.is_some() => {
+            let g = flat_noise_factor
+                .clone()
+                .unwrap_or_else(|| Array2::ones((geometry.ny, geometry.nx)));
+            let to_sky = |images: &[Array2<f64>]| -> Vec<Array2<f64>> {
+                images
+                    .iter()
+                    .map(|im| {
+                        let mut out = im * &g;
+                        out.zip_mut_with(&g, |v, &f| {
+                            if f == 0.0 {
+                                *v = f64::NAN
+                            }
+                        });
+                        out
+                    })
+                    .collect()
+            };
+            (to_sky(&restored.images), to_sky(&restored.residual_coefficients), g.mapv(|f| f > 0.0))
+        }
         (Some(p), true) => {
             let valid = beam_validity(&p[0], config.imaging.pb_cutoff);
             (
@@ -149,12 +209,19 @@ pub fn image_strategy(
     } else {
         None
     };
+    // A-projection strategies deconvolve in the flat-noise frame; their model, stored in the sky
+    // frame, is model × g.
+    let model = match &flat_noise_factor {
+        Some(g) => result.model.iter().map(|m| m * g).collect(),
+        None => result.model,
+    };
+    let (residuals, restored_apparent) = (result.residuals, restored.images);
     Ok(StrategyImages {
         name: name.clone(),
         n_terms,
-        model: result.model,
-        residuals: result.residuals,
-        restored_apparent: restored.images,
+        model,
+        residuals,
+        restored_apparent,
         restored_sky,
         alpha,
         psf: psfs.swap_remove(0),
