@@ -23,16 +23,27 @@ fn demo_config_loads_with_the_intended_scenario() {
     let Layout::LogSpiral(spiral) = &config.array.layout else { panic!("demo uses a log spiral") };
     assert_eq!(config.array.layout.antenna_count(), Some(24));
     assert_eq!(spiral.arms, 3);
-    assert_eq!(config.observation.time_samples(), 90);
-    assert_eq!(config.observation.channels, 16);
+    assert_eq!(config.observation.time_samples(), 36);
+    assert_eq!(config.observation.channels, 8);
     assert_eq!(config.observation.band_ghz, [1.0, 2.0]);
     assert_eq!(config.beam.mount, Mount::AltAz);
     assert!(matches!(config.beam.taper, Taper::ParabolicOnPedestal(_)));
-    let bright = &config.sky.source[0];
-    assert_eq!(
-        bright.position,
-        SourcePosition::BeamPower { beam_power: 0.1, position_angle_deg: 60.0 }
-    );
+    // The sky runs from the centre through the 80 %, 50 % and 10 % power points to the first
+    // sidelobe (beyond the first null, about 70 arcmin at 1.5 GHz for this dish).
+    let powers: Vec<f64> = config
+        .sky
+        .source
+        .iter()
+        .filter_map(|s| match s.position {
+            SourcePosition::BeamPower { beam_power, .. } => Some(beam_power),
+            _ => None,
+        })
+        .collect();
+    assert_eq!(powers, [0.8, 0.5, 0.1]);
+    assert!(config.sky.source.iter().any(|s| matches!(
+        s.position,
+        SourcePosition::Radius { radius_arcmin, .. } if radius_arcmin > 70.0
+    )));
     assert!(config.sky.source.iter().any(|s| matches!(s.shape, SourceShape::Gaussian { .. })));
     // Every source has a spectrum and, once resolved, its reference frequency.
     assert!(config.sky.source.iter().all(|s| s.alpha != 0.0 && s.ref_freq_ghz == Some(1.5)));
