@@ -4,16 +4,18 @@ use std::path::PathBuf;
 
 use beamfloor_experiment::config::parse_config;
 
+/// A full config with every section (a frozen copy of an earlier demo, so the demo can evolve
+/// without silently changing what these tests edit).
 fn demo_text() -> String {
-    let path = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("../../configs/demo.toml");
+    let path = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("tests/hash_base.toml");
     std::fs::read_to_string(path).unwrap()
 }
 
-/// The demo with the first occurrence of `old` replaced by `new`; panics if `old` is absent,
+/// The base config with the first occurrence of `old` replaced by `new`; panics if `old` is absent,
 /// so a stale edit cannot make a test pass vacuously.
 fn edited(old: &str, new: &str) -> String {
     let text = demo_text();
-    assert!(text.contains(old), "demo.toml no longer contains `{old}`");
+    assert!(text.contains(old), "hash_base.toml no longer contains `{old}`");
     text.replacen(old, new, 1)
 }
 
