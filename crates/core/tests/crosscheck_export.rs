@@ -3,9 +3,9 @@ use beamfloor_core::taylor_weight;
 use std::path::PathBuf;
 
 fn export_dir() -> PathBuf {
-    std::env::var_os("BEAMFLOOR_CROSSCHECK_DIR")
-        .map(PathBuf::from)
-        .unwrap_or_else(|| PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("../../target/crosscheck"))
+    std::env::var_os("BEAMFLOOR_CROSSCHECK_DIR").map(PathBuf::from).unwrap_or_else(|| {
+        PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("../../target/crosscheck")
+    })
 }
 
 #[test]

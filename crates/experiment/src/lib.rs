@@ -18,9 +18,9 @@
 //! ```
 
 pub mod config;
+pub mod pictures;
 pub mod run;
 pub mod scenario;
-pub mod pictures;
 pub mod simulation;
 
 pub use config::{load_config, parse_config, Config, ConfigError};

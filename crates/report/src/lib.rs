@@ -57,7 +57,8 @@ pub use fits_meta::{
 pub use fits_read::read_fits;
 pub use fits_write::{write_fits_cube, write_fits_image};
 pub use html::{
-    escape_html, render_html, write_html, write_text_file, HtmlBlock, HtmlFigure, HtmlPage, HtmlSection,
+    escape_html, render_html, write_html, write_text_file, HtmlBlock, HtmlFigure, HtmlPage,
+    HtmlSection,
 };
 pub use png_bars::{write_bar_chart, BarChart};
 pub use png_image::{write_image_png, ImagePngOptions};
