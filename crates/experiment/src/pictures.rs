@@ -10,7 +10,6 @@ use beamfloor_report::{
     write_image_png, write_line_plot, AxisScale, ColourMap, ColourScale, ImagePngOptions, LinePlot,
     Series, Stretch,
 };
-use ndarray::Array2;
 
 use crate::scenario::{Scenario, ScenarioError};
 
@@ -65,7 +64,7 @@ pub fn beam_pictures(scenario: &Scenario, out_dir: &Path) -> Result<Vec<PathBuf>
         write_image_png(&path, db.view(), &geometry, &options)?;
         written.push(path);
     }
-    let change = stokes_i_change(beam, &geometry, scenario.ref_freq_hz, freqs)?;
+    let change = beam.beam_change_image(&geometry, 0, 0, scenario.ref_freq_hz, freqs)?;
     let path = out_dir.join("beam-change.png");
     let options = ImagePngOptions::new(
         format!(
@@ -78,44 +77,47 @@ pub fn beam_pictures(scenario: &Scenario, out_dir: &Path) -> Result<Vec<PathBuf>
     );
     write_image_png(&path, change.view(), &geometry, &options)?;
     written.push(path);
-    written.push(profile_plot(beam, scenario.ref_freq_hz, half_field, out_dir)?);
+    let path = out_dir.join("beam-profile.png");
+    beam_profile_plot(beam, &[f_lo, scenario.ref_freq_hz, f_hi], half_field, &path)?;
+    written.push(path);
     Ok(written)
 }
 
-fn stokes_i_change(
+/// Writes P and |ν ∂P/∂ν| along a radius (position angle 0, intrinsic pattern) out to
+/// `max_radius_rad`, one pair of curves per frequency, to `path` (log power axis).
+pub fn beam_profile_plot(
     beam: &DishBeam,
-    geometry: &ImageGeometry,
-    freq_hz: f64,
-    average_freqs_hz: &[f64],
-) -> Result<Array2<f64>, PictureError> {
-    Ok(beam.beam_change_image(geometry, 0, 0, freq_hz, average_freqs_hz)?)
-}
-
-fn profile_plot(
-    beam: &DishBeam,
-    freq_hz: f64,
+    freqs_hz: &[f64],
     max_radius_rad: f64,
-    out_dir: &Path,
-) -> Result<PathBuf, PictureError> {
+    path: &Path,
+) -> Result<(), PictureError> {
     let radii: Vec<f64> = (0..=400).map(|i| max_radius_rad * i as f64 / 400.0).collect();
-    let profile = beam.radial_profile(freq_hz, &radii, 0.0)?;
     let arcmin = |r: f64| r * ARCMIN_PER_RAD;
-    let power: Vec<(f64, f64)> =
-        radii.iter().zip(&profile.power).map(|(&r, &p)| (arcmin(r), p)).collect();
-    let slope: Vec<(f64, f64)> =
-        radii.iter().zip(&profile.nu_dp_dnu).map(|(&r, &d)| (arcmin(r), d.abs())).collect();
+    let mut series = Vec::with_capacity(2 * freqs_hz.len());
+    for &f in freqs_hz {
+        let profile = beam.radial_profile(f, &radii, 0.0)?;
+        let ghz = f / 1e9;
+        series.push(Series {
+            name: format!("P at {ghz:.3} GHz"),
+            points: radii.iter().zip(&profile.power).map(|(&r, &p)| (arcmin(r), p)).collect(),
+        });
+        series.push(Series {
+            name: format!("|ν ∂P/∂ν| at {ghz:.3} GHz"),
+            points: radii
+                .iter()
+                .zip(&profile.nu_dp_dnu)
+                .map(|(&r, &d)| (arcmin(r), d.abs()))
+                .collect(),
+        });
+    }
     let mut plot = LinePlot::new(
-        format!("beam along a radius (position angle 0) at {:.3} GHz", freq_hz / 1e9),
+        "beam along a radius (position angle 0)",
         "radius [arcmin]",
         "power / frequency sensitivity",
     );
     plot.y_scale = AxisScale::Log;
     plot.y_range = Some((1e-4, 1.5));
-    plot.series = vec![
-        Series { name: "P".into(), points: power },
-        Series { name: "|ν ∂P/∂ν|".into(), points: slope },
-    ];
-    let path = out_dir.join("beam-profile.png");
-    write_line_plot(&path, &plot)?;
-    Ok(path)
+    plot.series = series;
+    write_line_plot(path, &plot)?;
+    Ok(())
 }

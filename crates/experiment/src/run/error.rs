@@ -26,6 +26,9 @@ pub enum RunError {
         /// What is possible instead.
         why: &'static str,
     },
+    /// A beam picture could not be drawn.
+    #[error("beam picture: {0}")]
+    Picture(#[source] Box<crate::pictures::PictureError>),
     /// No strategy produced an image (every one was unavailable or diverged).
     #[error("no strategy could be imaged: {}", reasons.join("; "))]
     NothingImaged {

@@ -282,35 +282,13 @@ fn write_plots(c: &OutputContext<'_>, dir: &Path) -> Result<(), RunError> {
         let (hx, _) = c.geometry.half_field_rad();
         let r_max =
             (1.5 * hx).min(beam.max_radius_rad(*c.vis.frequencies_hz.last().unwrap_or(&1e9)));
-        let radii: Vec<f64> = (0..400).map(|i| r_max * i as f64 / 399.0).collect();
         let freqs = [
             c.vis.frequencies_hz[0],
             c.scenario.ref_freq_hz,
             c.vis.frequencies_hz[c.vis.frequencies_hz.len() - 1],
         ];
-        let mut series = Vec::new();
-        for f in freqs {
-            let p = beam
-                .radial_profile(f, &radii, 0.0)
-                .map_err(|source| RunError::Beam { what: "beam radial profile".into(), source })?;
-            let arcmin = |r: f64| r.to_degrees() * 60.0;
-            series.push(Series {
-                name: format!("P at {:.3} GHz", f / 1e9),
-                points: radii.iter().zip(&p.power).map(|(&r, &v)| (arcmin(r), v)).collect(),
-            });
-            series.push(Series {
-                name: format!("|ν ∂P/∂ν| at {:.3} GHz", f / 1e9),
-                points: radii
-                    .iter()
-                    .zip(&p.nu_dp_dnu)
-                    .map(|(&r, &v)| (arcmin(r), v.abs()))
-                    .collect(),
-            });
-        }
-        let mut plot = LinePlot::new("primary beam along a radius", "radius (arcmin)", "power");
-        plot.series = series;
-        plot.y_scale = AxisScale::Log;
-        write_line_plot(&dir.join("beam-profile.png"), &plot)?;
+        crate::pictures::beam_profile_plot(beam, &freqs, r_max, &dir.join("beam-profile.png"))
+            .map_err(|e| RunError::Picture(Box::new(e)))?;
     }
     let mut bars: Vec<(String, f64)> =
         c.scores.iter().map(|(n, s)| (n.clone(), s.image.floor.rms_jy_per_beam)).collect();
