@@ -51,9 +51,11 @@ mod quadrature;
 mod weighting;
 
 pub use aproj::{
-    first_null_radius_rad, fitted_conjugate_frequencies, flat_noise, flat_sky, main_lobe_mismatch,
+    first_null_radius_rad, fitted_conjugate_frequencies, flat_noise, flat_sky,
+    kernel_beam_half_width_rad, kernel_table_bytes, main_lobe_mismatch,
     reciprocal_conjugate_frequency, screen_cache_bytes, AProjection, AProjectionParams,
-    ConjugateFitParams, ConjugateFrequency, DirectBeamOperator,
+    ConjugateFitParams, ConjugateFrequency, DirectBeamOperator, KernelAProjection,
+    KernelAProjectionParams, KernelInterpolation, KernelTableEstimate,
 };
 pub use direct::DirectOperator;
 pub use dirty::{dirty_images, predict_visibilities, DirtyImages, TaylorTerms};

@@ -1,9 +1,16 @@
 //! A-projection imaging operators: the beam's direction dependence applied inside the
 //! grid/degrid pair, the sensitivity image that normalises their dirty images, wideband
-//! (conjugate-frequency) gridding, and a slow direct-sum reference.
+//! (conjugate-frequency) gridding, and a slow direct-sum reference. Two implementations of the
+//! same operator: [`AProjection`] applies the A-term exactly on the pixel grid (slow, the
+//! reference), [`KernelAProjection`] convolves with oversampled uv-domain A-kernels (fast).
 
 mod conjugate;
 mod direct_beam;
+mod kernel_operator;
+mod kernel_passes;
+mod kernel_rows;
+mod kernel_sensitivity;
+mod kernel_table;
 mod operator;
 mod screens;
 mod sensitivity;
@@ -13,6 +20,11 @@ pub use conjugate::{
     reciprocal_conjugate_frequency, ConjugateFitParams,
 };
 pub use direct_beam::DirectBeamOperator;
+pub use kernel_operator::{
+    kernel_table_bytes, KernelAProjection, KernelAProjectionParams, KernelInterpolation,
+    KernelTableEstimate,
+};
+pub use kernel_table::kernel_beam_half_width_rad;
 pub use operator::{AProjection, AProjectionParams, ConjugateFrequency};
 pub use screens::screen_cache_bytes;
 pub use sensitivity::{flat_noise, flat_sky};

@@ -366,7 +366,7 @@ pub(crate) fn sub_visset(vis: &VisSet, rows: &[usize], chan: usize, corr: usize)
     }
 }
 
-fn check_identical<B: VoltageBeam + ?Sized>(
+pub(crate) fn check_identical<B: VoltageBeam + ?Sized>(
     beam: &B,
     geometry: ImageGeometry,
     n_bins: usize,
