@@ -54,6 +54,8 @@ mod sky;
 mod span_index;
 mod strategy;
 mod suggest;
+mod sweep;
+mod sweep_points;
 mod truth;
 
 pub use array::{ArrayConfig, Layout, LogSpiralLayout, RandomDiscLayout};
@@ -72,4 +74,8 @@ pub use strategy::{
     CleanConfig, CleanThreshold, ConjugateFrequency, Gridding, Normalization, Spectral,
     StrategyConfig,
 };
+pub use sweep::{
+    KeyPart, SweepConfig, SweepKey, SweepParameter, SweepRange, SweepSeeds, MAX_SWEEP_POINTS,
+};
+pub use sweep_points::{expand_sweep, load_sweep, ExpandedSweep, SweepPoint};
 pub use truth::{NoiseConfig, TruthSwitches};

@@ -14,6 +14,7 @@ use super::observation::ObservationConfig;
 use super::output::OutputConfig;
 use super::sky::SkyConfig;
 use super::strategy::{ConjugateFrequency, Gridding, Spectral, StrategyConfig};
+use super::sweep::SweepConfig;
 use super::truth::{NoiseConfig, TruthSwitches};
 
 /// A complete experiment description, as read from one TOML file.
@@ -49,6 +50,10 @@ pub struct Config {
     /// `[output]`: where products go and which. Default: [`OutputConfig::default`].
     #[serde(default)]
     pub output: OutputConfig,
+    /// `[sweep]`: keys to vary, one run per point (see [`SweepConfig`]). Default: absent (a
+    /// single run; `beamfloor run` ignores the section).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub sweep: Option<SweepConfig>,
 }
 
 /// The part of a config that determines the simulated visibilities, in a fixed order; the
@@ -141,6 +146,9 @@ impl Config {
         self.noise.check(c);
         self.imaging.check(c);
         self.output.check(c);
+        if let Some(sweep) = &self.sweep {
+            sweep.check(c);
+        }
         if self.strategy.is_empty() {
             c.fail("strategy", "[]", "must list at least one [[strategy]]");
         }
