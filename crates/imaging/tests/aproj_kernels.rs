@@ -274,9 +274,10 @@ fn memory_estimate_is_the_allocated_size_and_the_cap_refuses() {
         let op = kernel_op(&b, &vis, &bins, p.clone());
         assert_eq!(est, op.table_estimate());
         assert_eq!(est.bytes, op.table_bytes_allocated());
-        // 3 bins × ⌈3 / k⌉ groups × 2 hands; each table (O + 1)² S² complex values (layout).
+        // 3 bins × ⌈3 / k⌉ groups × 2 hands; each table (O + 1)² S² single-precision complex
+        // values (the documented layout).
         assert_eq!(est.n_tables, 3 * 3usize.div_ceil(k) * 2);
-        let by_support: usize = op.supports().iter().map(|s| (o + 1) * (o + 1) * s * s * 16).sum();
+        let by_support: usize = op.supports().iter().map(|s| (o + 1) * (o + 1) * s * s * 8).sum();
         assert_eq!(est.bytes, by_support);
         assert_eq!(op.n_channel_groups(), 3usize.div_ceil(k));
         let capped = KernelAProjectionParams { max_table_bytes: est.bytes - 1, ..p };

@@ -238,7 +238,7 @@ impl KernelLayout {
 
 /// The memory the kernel tables of a [`KernelAProjection`] with these inputs will take, found
 /// before any table is filled: every kernel's support is probed (one small FFT per kernel, at
-/// half-cell spacing), and a table costs (O + 1)² S² · 16 bytes. Print it before a run; the
+/// half-cell spacing), and a table costs (O + 1)² S² · 8 bytes (single-precision complex). Print it before a run; the
 /// constructor refuses plans above [`KernelAProjectionParams::max_table_bytes`]. To reduce
 /// it: lower `oversampling`, widen the PA bins (fewer bins), or share kernels across channels
 /// (`max_channels_per_group`).

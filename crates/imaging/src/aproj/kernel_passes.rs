@@ -2,7 +2,7 @@
 //! kernel lattice, deterministic band-parallel spreading, row-parallel interpolation, and the
 //! per-plane FFT and screen.
 use super::kernel_operator::{KernelAProjection, KernelInterpolation, Side};
-use super::kernel_rows::{accumulate_row, dot_row};
+use super::kernel_rows::{accumulate_conj, bilinear_row, dot_rows, widen_row, RowSimd};
 use super::kernel_table::KernelTable;
 use crate::error::ImagingError;
 use crate::operator::{check_degrid_args, check_grid_args, GridOutput, ImagingOperator};
@@ -19,7 +19,7 @@ const ZERO: Complex64 = Complex64 { re: 0.0, im: 0.0 };
 /// the thread count).
 const BAND_ROWS: usize = 32;
 /// Visibility rows per degridding task.
-const DEGRID_ROWS: usize = 16;
+const DEGRID_ROWS: usize = 128;
 
 /// One (row, channel) sample placed on the kernel lattice of one side's tables.
 #[derive(Clone, Copy, Debug)]
@@ -155,23 +155,22 @@ impl<B: VoltageBeam + ?Sized> KernelAProjection<'_, B> {
         Ok(())
     }
 
-    /// Row `j` of a site's kernel from `table` (interpolated), conjugated if asked, into `out`.
+    /// Row `j` of a site's kernel from `table`, in double precision in `scratch`: a row of the
+    /// table (nearest lookup) or the bilinear interpolation of four rows.
     #[inline]
-    fn kernel_row(
+    fn kernel_row<'t>(
         &self,
-        table: &KernelTable,
+        simd: RowSimd,
+        table: &'t KernelTable,
         s: &Site,
         j: usize,
-        conj: bool,
-        out: &mut [Complex64],
-    ) {
+        scratch: &'t mut [Complex64],
+    ) -> &'t [Complex64] {
         let n = s.support;
         let range = j * n..(j + 1) * n;
-        let out = &mut out[..n];
+        let out = &mut scratch[..n];
         match self.params.interpolation {
-            KernelInterpolation::Nearest => {
-                out.copy_from_slice(&table.slice(s.fy, s.fx)[range]);
-            }
+            KernelInterpolation::Nearest => widen_row(out, &table.slice(s.fy, s.fx)[range]),
             KernelInterpolation::Bilinear => {
                 let w = [
                     (1.0 - s.ay) * (1.0 - s.ax),
@@ -179,19 +178,36 @@ impl<B: VoltageBeam + ?Sized> KernelAProjection<'_, B> {
                     s.ay * (1.0 - s.ax),
                     s.ay * s.ax,
                 ];
-                let a = &table.slice(s.fy, s.fx)[range.clone()];
-                let b = &table.slice(s.fy, s.fx + 1)[range.clone()];
-                let c = &table.slice(s.fy + 1, s.fx)[range.clone()];
-                let d = &table.slice(s.fy + 1, s.fx + 1)[range];
-                for i in 0..n {
-                    out[i] = a[i] * w[0] + b[i] * w[1] + c[i] * w[2] + d[i] * w[3];
-                }
+                let rows = [
+                    &table.slice(s.fy, s.fx)[range.clone()],
+                    &table.slice(s.fy, s.fx + 1)[range.clone()],
+                    &table.slice(s.fy + 1, s.fx)[range.clone()],
+                    &table.slice(s.fy + 1, s.fx + 1)[range],
+                ];
+                bilinear_row(simd, out, rows, w);
             }
         }
-        if conj {
-            for v in out.iter_mut() {
-                *v = v.conj();
-            }
+        out
+    }
+
+    /// Kernel rows `j` of both correlations' tables of a site (the second equal to the first
+    /// when there is one correlation).
+    #[inline]
+    fn kernel_rows<'t>(
+        &'t self,
+        simd: RowSimd,
+        s: &Site,
+        hands: &[usize],
+        j: usize,
+        scratch: &'t mut [Complex64],
+    ) -> [&'t [Complex64]; 2] {
+        let half = scratch.len() / 2;
+        let (s0, s1) = scratch.split_at_mut(half);
+        let k0 = self.kernel_row(simd, &self.tables[s.tables[hands[0]]], s, j, s0);
+        if hands.len() > 1 {
+            [k0, self.kernel_row(simd, &self.tables[s.tables[hands[1]]], s, j, s1)]
+        } else {
+            [k0, k0]
         }
     }
 
@@ -255,6 +271,7 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
         let (nc, np) = (vis.n_channels(), vis.n_correlations());
         let hands: Vec<usize> = vis.correlations.iter().map(|c| hand(c.receptor())).collect();
         let n_out = outputs.len();
+        let simd = RowSimd::detect();
         for p in 0..self.plan.n_w_planes() {
             let mut bands: Vec<Vec<Visit>> = vec![Vec::new(); n_bands];
             for (i, s) in sites.iter().enumerate() {
@@ -284,10 +301,14 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
             }
             per_band.into_par_iter().zip(bands.par_iter()).enumerate().for_each(
                 |(b, (mut chunks, visits))| {
+                    // Visits sharing a kernel table run together, so that table stays in cache;
+                    // the key is unique per visit, so the order does not depend on threads.
+                    let mut visits = visits.clone();
+                    visits.sort_unstable_by_key(|v| (sites[v.site].tables[0], v.site, v.j0));
                     let max_s = visits.iter().map(|v| sites[v.site].support).max().unwrap_or(0);
-                    let mut krows = vec![vec![ZERO; max_s]; np];
+                    let mut scratch = vec![ZERO; 2 * max_s];
                     let mut vals = vec![ZERO; n_out * np];
-                    for v in visits {
+                    for v in &visits {
                         let s = &sites[v.site];
                         let (r, c) = (v.site / nc, v.site % nc);
                         let mut any = false;
@@ -308,16 +329,17 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
                         for j in v.j0..v.j1 {
                             let y =
                                 (s.y0 + j as i64).rem_euclid(py as i64) as usize - b * BAND_ROWS;
-                            for (k, row) in krows.iter_mut().enumerate() {
-                                let t = &self.tables[s.tables[hands[k]]];
-                                self.kernel_row(t, s, j, true, row);
-                            }
+                            let krows = self.kernel_rows(simd, s, &hands, j, &mut scratch);
+                            let (head, tail) = (
+                                [&krows[0][..n1], &krows[1][..n1]],
+                                [&krows[0][n1..], &krows[1][n1..]],
+                            );
                             for (o, chunk) in chunks.iter_mut().enumerate() {
                                 let line = &mut chunk[y * px..(y + 1) * px];
                                 let vals = &vals[o * np..(o + 1) * np];
-                                accumulate_row(&mut line[x0..x0 + n1], &krows, 0..n1, vals);
+                                accumulate_conj(simd, &mut line[x0..x0 + n1], &head[..np], vals);
                                 if n1 < n {
-                                    accumulate_row(&mut line[..n - n1], &krows, n1..n, vals);
+                                    accumulate_conj(simd, &mut line[..n - n1], &tail[..np], vals);
                                 }
                             }
                         }
@@ -360,6 +382,7 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
         let mut grids = vec![vec![ZERO; px * py]; images.len()];
         let mut scratch = vec![ZERO; px * py];
         let n_img = images.len();
+        let simd = RowSimd::detect();
         for p in 0..self.plan.n_w_planes() {
             if !sites.iter().any(|s| self.plane_weight(s.w, p) != 0.0) {
                 continue;
@@ -377,34 +400,42 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
             out.par_chunks_mut(DEGRID_ROWS * nc * np).enumerate().for_each(|(task, chunk)| {
                 let r0 = task * DEGRID_ROWS;
                 let max_s = sites.iter().map(|s| s.support).max().unwrap_or(0);
-                let mut krow = vec![ZERO; max_s];
-                let mut acc = vec![ZERO; n_img];
-                for (i, value) in chunk.iter_mut().enumerate() {
-                    let (r, c, k) = (r0 + i / (nc * np), (i / np) % nc, i % np);
+                let mut scratch = vec![ZERO; 2 * max_s];
+                let mut acc = vec![ZERO; n_img * np];
+                // Channel-major order: consecutive samples share their kernel tables.
+                let rows = chunk.len() / (nc * np);
+                for (c, i) in (0..nc).flat_map(|c| (0..rows).map(move |i| (c, i))) {
+                    let r = r0 + i;
+                    let values = &mut chunk[(i * nc + c) * np..(i * nc + c + 1) * np];
                     let s = &sites[r * nc + c];
                     let kw = self.plane_weight(s.w, p);
                     if kw == 0.0 {
                         continue;
                     }
-                    let t = &self.tables[s.tables[hands[k]]];
                     let n = s.support;
                     let x0 = s.x0.rem_euclid(px as i64) as usize;
                     let n1 = n.min(px - x0);
                     acc.iter_mut().for_each(|a| *a = ZERO);
                     for j in 0..n {
-                        self.kernel_row(t, s, j, false, &mut krow);
+                        let krows = self.kernel_rows(simd, s, &hands, j, &mut scratch);
+                        let (head, tail) = (
+                            [&krows[0][..n1], &krows[1][..n1]],
+                            [&krows[0][n1..], &krows[1][n1..]],
+                        );
                         let y = (s.y0 + j as i64).rem_euclid(py as i64) as usize;
-                        for (a, grid) in acc.iter_mut().zip(grids) {
+                        for (a, grid) in acc.chunks_mut(np).zip(grids) {
                             let line = &grid[y * px..(y + 1) * px];
-                            *a += dot_row(&line[x0..x0 + n1], &krow[..n1]);
+                            dot_rows(simd, &line[x0..x0 + n1], &head[..np], a);
                             if n1 < n {
-                                *a += dot_row(&line[..n - n1], &krow[n1..n]);
+                                dot_rows(simd, &line[..n - n1], &tail[..np], a);
                             }
                         }
                     }
-                    let sum: Complex64 =
-                        acc.iter().zip(channel_factors).map(|(a, f)| a * f[c]).sum();
-                    *value += sum * kw;
+                    for (k, value) in values.iter_mut().enumerate() {
+                        let sum: Complex64 =
+                            acc.chunks(np).zip(channel_factors).map(|(a, f)| a[k] * f[c]).sum();
+                        *value += sum * kw;
+                    }
                 }
             });
         }

@@ -1,0 +1,161 @@
+//! Throughput of the uv-kernel A-projection operator ([`KernelAProjection`]) at realistic kernel
+//! supports: a 13.5 m dish, 1–2 GHz in 8 channels, uv cells of 8 wavelengths (so S ≈ 19 cells
+//! at 1 GHz and 31 at 2 GHz, the sizes of the demo's 720² image of 18″ pixels), both hands,
+//! 66 baselines × 40 times of synthetic Earth-rotation tracks, w ignored (one plane, so the
+//! spreading loop dominates over the single 512² FFT).
+//!
+//! Throughput is reported in floating-point operations ([`KernelAProjection::flop_count`]:
+//! 8 per kernel cell per image for the complex multiply-add plus 14 for the bilinear kernel),
+//! so criterion's "elem/s" reads as FLOP/s; the visibilities per call are printed once, for
+//! vis/s = (samples per call) / (time per call).
+
+use beamfloor_beam::{ApertureParams, DishBeam, DishBeamParams, EffectParams, SquintParams};
+use beamfloor_core::{derive_seed, Correlation, ImageGeometry, SeedPurpose};
+use beamfloor_imaging::{
+    GridOutput, GridderParams, ImagingOperator, KernelAProjection, KernelAProjectionParams, WRange,
+    WTerm,
+};
+use beamfloor_predict::VisSet;
+use criterion::{criterion_group, criterion_main, Criterion, Throughput};
+use ndarray::{Array2, Array3};
+use num_complex::Complex64;
+use rand::{Rng, SeedableRng};
+use rand_chacha::ChaCha8Rng;
+use std::hint::black_box;
+use std::time::Duration;
+
+const N_ANT: usize = 12;
+const N_TIME: usize = 40;
+const N_CHAN: usize = 8;
+/// Padded grid 512 cells of uv cell 1/(512 · cell) ≈ 8 wavelengths.
+const NX: usize = 256;
+const CELL_RAD: f64 = 2.45e-4;
+
+fn setup() -> (DishBeam, VisSet) {
+    let mut rng = ChaCha8Rng::seed_from_u64(derive_seed(7, SeedPurpose::Test, 500));
+    let geometry = ImageGeometry::new(NX, NX, CELL_RAD);
+    let half = beamfloor_imaging::kernel_beam_half_width_rad(geometry).expect("geometry");
+    let params = DishBeamParams {
+        aperture: ApertureParams {
+            dish_diameter_m: 13.5,
+            samples_across: 64,
+            ..Default::default()
+        },
+        effects: EffectParams {
+            squint: SquintParams { fraction_of_hpbw: 0.03, direction_rad: 0.5 },
+            ..EffectParams::default()
+        },
+        ref_freq_hz: 1.5e9,
+        max_abs_lm: half,
+        max_freq_hz: 2.0e9,
+        ..DishBeamParams::default()
+    };
+    let beam = DishBeam::new(&params, vec![0.3], vec![0.0]).expect("beam");
+    // Antennas within ±110 m east/north (the padded grid reaches ±2 km wavelengths at 2 GHz).
+    let ant: Vec<[f64; 3]> = (0..N_ANT)
+        .map(|_| [rng.random_range(-110.0..110.0), rng.random_range(-110.0..110.0), 0.0])
+        .collect();
+    let (lat, dec) = (-0.5f64, -0.7f64);
+    let mut rows = Vec::new();
+    for a in 0..N_ANT {
+        for b in a + 1..N_ANT {
+            // ENU → equatorial (X, Y, Z) at latitude φ (Thompson, Moran & Swenson, eq. 4.15).
+            let (e, n, u) = (ant[b][0] - ant[a][0], ant[b][1] - ant[a][1], 0.0);
+            let x = -n * lat.sin() + u * lat.cos();
+            let y = e;
+            let z = n * lat.cos() + u * lat.sin();
+            for t in 0..N_TIME {
+                let h = -1.0 + 2.0 * t as f64 / N_TIME as f64;
+                // (u, v, w) from hour angle and declination (Thompson, Moran & Swenson, eq. 4.1).
+                let uu = h.sin() * x + h.cos() * y;
+                let vv = -dec.sin() * h.cos() * x + dec.sin() * h.sin() * y + dec.cos() * z;
+                let ww = dec.cos() * h.cos() * x - dec.cos() * h.sin() * y + dec.sin() * z;
+                rows.push((a as u32, b as u32, t as u32, [uu, vv, ww]));
+            }
+        }
+    }
+    let nr = rows.len();
+    let freqs: Vec<f64> =
+        (0..N_CHAN).map(|c| 1.0e9 + c as f64 * 1.0e9 / (N_CHAN - 1) as f64).collect();
+    let data = Array3::from_shape_fn((nr, N_CHAN, 2), |_| {
+        Complex64::new(rng.random_range(-1.0..1.0), rng.random_range(-1.0..1.0))
+    });
+    let vis = VisSet {
+        frequencies_hz: freqs,
+        channel_width_hz: 1.25e8,
+        integration_s: 10.0,
+        hour_angles_rad: vec![0.0; N_TIME],
+        parallactic_angles_rad: vec![0.0; N_TIME],
+        phase_centre_ra_rad: 0.0,
+        phase_centre_dec_rad: dec,
+        antenna1: rows.iter().map(|r| r.0).collect(),
+        antenna2: rows.iter().map(|r| r.1).collect(),
+        time_index: rows.iter().map(|r| r.2).collect(),
+        uvw_m: Array2::from_shape_fn((nr, 3), |(i, k)| rows[i].3[k]),
+        data,
+        weights: Array3::ones((nr, N_CHAN, 2)),
+        flags: Array3::from_elem((nr, N_CHAN, 2), false),
+        correlations: Correlation::BOTH.to_vec(),
+        seed: 0,
+        truth_hash: String::new(),
+    };
+    (beam, vis)
+}
+
+fn bench(c: &mut Criterion) {
+    let (beam, vis) = setup();
+    let geometry = ImageGeometry::new(NX, NX, CELL_RAD);
+    let params = KernelAProjectionParams {
+        gridder: GridderParams { epsilon: 1e-7, w_term: WTerm::Ignore },
+        ..KernelAProjectionParams::default()
+    };
+    let w = WRange::of_visibilities(&vis).expect("valid set");
+    let op = KernelAProjection::new(
+        geometry,
+        &beam,
+        vec![0; N_TIME],
+        vis.frequencies_hz.clone(),
+        w,
+        params,
+    )
+    .expect("plan");
+    let est = op.table_estimate();
+    let samples = vis.n_rows() * vis.n_channels() * vis.n_correlations();
+    println!(
+        "aproj bench: {samples} samples per call, supports {}..={} cells, tables {:.0} MB",
+        est.min_support,
+        est.max_support,
+        est.bytes as f64 / 1e6
+    );
+    let out = [GridOutput { source: 0, channel_factors: vec![1.0; N_CHAN] }];
+    let image = Array2::from_shape_fn((NX, NX), |(y, x)| ((x * 7 + y * 3) % 11) as f64 - 5.0);
+    let flops = op.flop_count(&vis, 1).expect("count");
+    let mut group = c.benchmark_group("aproj_kernel");
+    group
+        .sample_size(10)
+        .warm_up_time(Duration::from_secs(1))
+        .measurement_time(Duration::from_secs(4));
+    group.throughput(Throughput::Elements(flops as u64));
+    for threads in [1, 2] {
+        let pool = rayon::ThreadPoolBuilder::new().num_threads(threads).build().expect("pool");
+        group.bench_function(format!("grid/S19-31/threads={threads}"), |b| {
+            b.iter(|| {
+                pool.install(|| black_box(op.grid(&vis, &[vis.data.view()], &out).expect("grid")))
+            })
+        });
+        group.bench_function(format!("degrid/S19-31/threads={threads}"), |b| {
+            b.iter(|| {
+                pool.install(|| {
+                    black_box(
+                        op.degrid(&vis, std::slice::from_ref(&image), &[vec![1.0; N_CHAN]])
+                            .expect("degrid"),
+                    )
+                })
+            })
+        });
+    }
+    group.finish();
+}
+
+criterion_group!(benches, bench);
+criterion_main!(benches);
