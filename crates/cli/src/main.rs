@@ -41,6 +41,14 @@ enum Command {
     /// Draw the truth beam: power at the band edges, instantaneous minus average beam, and P and
     /// |ν ∂P/∂ν| along a radius.
     PlotBeam(commands::plot_beam::Args),
+    /// Rerun the experiment with each truth effect (rotation, frequency scaling, squint,
+    /// pointing, ripple, w-term, noise) switched off in turn and with all off, and tabulate and
+    /// plot what each effect costs each strategy's floor.
+    Decompose(commands::decompose::Args),
+    /// Run a config's [sweep] point by point, here or as a Slurm job array, resume after an
+    /// interruption, and collect every point's metrics into one table and a floor plot.
+    #[command(subcommand_required = true)]
+    Sweep(commands::sweep::Args),
 }
 
 fn main() -> ExitCode {
@@ -49,7 +57,9 @@ fn main() -> ExitCode {
         Command::Check(args) => commands::check::run(&args),
         Command::Simulate(args) => commands::simulate::run(&args),
         Command::Run(args) => commands::run::run(&args),
+        Command::Sweep(args) => commands::sweep::run(&args),
         Command::PlotBeam(args) => commands::plot_beam::run(&args),
+        Command::Decompose(args) => commands::decompose::run(&args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

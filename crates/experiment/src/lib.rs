@@ -18,9 +18,11 @@
 //! ```
 
 pub mod config;
+pub mod decompose;
 pub mod pictures;
 pub mod run;
 pub mod scenario;
 pub mod simulation;
+pub mod sweep;
 
 pub use config::{load_config, parse_config, Config, ConfigError};

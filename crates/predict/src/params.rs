@@ -11,7 +11,8 @@ pub const DEFAULT_BEAM_CACHE_BYTES: usize = 256 << 20;
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct PredictParams {
     /// Include the w(n − 1) term of the phase (default true). Off drops it, as a flat-sky
-    /// (two-dimensional) Fourier relation would; used to show what the w-term costs.
+    /// (two-dimensional) Fourier relation would; used to show what the w-term costs. The
+    /// simulated visibility set then stores w = 0 for every sample (see [`crate::simulate`]).
     pub w_term: bool,
     /// The phase of consecutive channels is advanced by a constant phasor and recomputed exactly
     /// every this many channels (≥ 1; 1 means every channel is evaluated directly). Default 32.

@@ -32,6 +32,11 @@ pub fn simulate(
     let mut uvw_m = Array2::zeros((n_rows, 3));
     for (mut out, row) in uvw_m.outer_iter_mut().zip(rows) {
         out.iter_mut().zip(row.uvw_m).for_each(|(o, x)| *o = x);
+        // Without the w-term the data are those of a coplanar array (w = 0 for every sample):
+        // store that w, so that imagers which correct the w-term see data consistent with it.
+        if !params.predict.w_term {
+            out[2] = 0.0;
+        }
     }
     let vis = VisSet {
         frequencies_hz: observation.channels.frequencies_hz.clone(),

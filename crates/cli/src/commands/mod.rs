@@ -1,9 +1,12 @@
 //! One module per subcommand; each has an `Args` (clap) and a `run`.
 
 pub mod check;
+pub mod decompose;
+pub mod interrupt;
 pub mod plot_beam;
 pub mod run;
 pub mod simulate;
+pub mod sweep;
 
 use std::fmt;
 

@@ -24,22 +24,29 @@
 //!
 //! Run folder:
 //! ```text
-//! OUT/config.resolved.toml   manifest.json   metrics.json   metrics.csv   sources.csv
+//! OUT/run-in-progress.json (from the start; removed last)   run-complete.json (written last)
+//!     config.resolved.toml   manifest.json   metrics.json   metrics.csv   sources.csv
 //!     radial.csv   report.html   visibilities/ (reused when its truth hash matches)
 //!     plots/ uv-coverage.png beam-profile.png floors.png source-flux-errors.png
-//!            source-alpha-errors.png radial-rms.png
+//!            source-alpha-errors.png (with ≥ 2 Taylor terms) radial-rms.png stokes-v-dirty.png
+//!     stokes-v-dirty.fits
 //!     strategies/<name>/ restored.fits residual.fits model.fits psf.fits [alpha.fits]
 //!                        restored.png residual.png error.png
 //! ```
 
 mod aproj;
 mod error;
+mod folder;
+mod guards;
 mod noise;
 mod operator;
 mod outputs;
 mod page;
 mod pbcor;
+mod preflight;
+mod quick_estimate;
 mod residual;
+mod stokes_v;
 mod runner;
 mod strategy;
 mod tables;
@@ -48,10 +55,21 @@ mod truth;
 pub use aproj::{binned_imaging_beam, build_a_operator, parallactic_angle_bins, BinnedBeam};
 pub use beamfloor_deconv::CycleReport;
 pub use error::RunError;
+pub use folder::{
+    begin_run, clear_run_folder, config_hash, describe_state, finish_run, mark_interrupted,
+    mark_stopped, marker_paths, run_folder_state, RunFolderState, COMPLETE_MARKER,
+    IN_PROGRESS_MARKER,
+};
 pub use noise::image_noise_jy;
 pub use operator::{build_operator, check_strategies};
 pub use pbcor::{beam_validity, divide_beam_taylor};
+pub use preflight::{
+    available_memory_bytes, estimate_memory, preflight, preflight_with_memory, MemoryEstimate,
+    Preflight, PreflightReport, StrategyMemory,
+};
+pub use quick_estimate::{QuickEstimate, SymmetrizedBeam};
 pub use residual::OperatorResiduals;
+pub use stokes_v::StokesV;
 pub use runner::{run_experiment, RunObserver, RunSummary, StrategySummary};
 pub use strategy::{image_strategy, BeamTaylor, StrategyImages};
 pub use tables::{short_number, table_csv, table_json};

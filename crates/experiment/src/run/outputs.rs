@@ -36,6 +36,8 @@ pub(crate) struct OutputContext<'a> {
     pub truths: &'a [(Vec<SourceTruth>, Array2<f64>, BeamTaylor)],
     pub reused_visibilities: bool,
     pub skipped: &'a [(String, String)],
+    pub quick_estimate: Option<&'a super::QuickEstimate>,
+    pub stokes_v: Option<&'a super::StokesV>,
 }
 
 fn mkdir(path: &Path) -> Result<(), RunError> {
@@ -64,6 +66,18 @@ pub(crate) fn write_outputs(
             write_strategy_fits(c, im, &truth.1)?;
         }
     }
+    if let (true, Some(v)) = (out.fits, c.stokes_v) {
+        let mut m = FitsImageMeta::new(
+            c.geometry,
+            c.vis.phase_centre_ra_rad,
+            c.vis.phase_centre_dec_rad,
+            BrightnessUnit::JyPerBeam,
+            "Stokes V dirty image, (RR - LL)/2, apparent frame",
+        );
+        m.truth_hash = Some(c.config.truth_hash());
+        m.seed = Some(c.config.experiment.seed);
+        write_fits_image(&c.out_dir.join("stokes-v-dirty.fits"), v.image.view(), &m)?;
+    }
     if out.png {
         write_quick_looks(c)?;
     }
@@ -79,6 +93,19 @@ pub(crate) fn write_outputs(
             "summary": table_json(&summary),
             "sources": table_json(&sources),
             "radial": table_json(&radial),
+            "stokes_v_dirty": c.stokes_v.map(|v| json!({
+                "peak_abs_v_jy_per_beam": finite_or_null(v.peak_abs_jy_per_beam),
+                "peak_abs_i_jy_per_beam": finite_or_null(v.i_peak_abs_jy_per_beam),
+                "peak_v_over_peak_i": finite_or_null(v.leakage()),
+            })),
+            "quick_estimate": c.quick_estimate.map(|q| json!({
+                "strategy": q.strategy,
+                "beam_error_rms_jy_per_beam": finite_or_null(q.beam_error_rms_jy_per_beam),
+                "predicted_floor_jy_per_beam": finite_or_null(q.predicted_floor_jy_per_beam),
+                "predicted_peak_error_jy_per_beam": finite_or_null(q.predicted_peak_error_jy_per_beam),
+                "measured_floor_jy_per_beam": finite_or_null(q.measured_floor_jy_per_beam),
+                "predicted_over_measured": finite_or_null(q.ratio()),
+            })),
         });
         write_text_file(&c.out_dir.join("metrics.json"), &pretty(&metrics))?;
         write_text_file(&c.out_dir.join("metrics.csv"), &table_csv(&summary))?;
@@ -272,6 +299,15 @@ fn write_quick_looks(c: &OutputContext<'_>) -> Result<(), RunError> {
     Ok(())
 }
 
+/// Whether the spectral-index error chart has anything to draw on its log axis: some strategy
+/// measured α (two or more Taylor terms) with a non-zero error.
+pub(crate) fn has_alpha_chart(c: &OutputContext<'_>) -> bool {
+    c.scores.iter().flat_map(|(_, s)| &s.sources).any(|src| {
+        let e = src.alpha_error_vs_fit.abs();
+        e.is_finite() && e > 0.0
+    })
+}
+
 fn write_plots(c: &OutputContext<'_>, dir: &Path) -> Result<(), RunError> {
     write_uv_coverage_png(
         &dir.join("uv-coverage.png"),
@@ -289,6 +325,17 @@ fn write_plots(c: &OutputContext<'_>, dir: &Path) -> Result<(), RunError> {
         ];
         crate::pictures::beam_profile_plot(beam, &freqs, r_max, &dir.join("beam-profile.png"))
             .map_err(|e| RunError::Picture(Box::new(e)))?;
+    }
+    if let Some(v) = c.stokes_v {
+        let view = v.image.view();
+        let scale = ColourScale::symmetric(&[view], Stretch::Linear)?;
+        let options = ImagePngOptions::new(
+            "Stokes V dirty image (RR − LL)/2 of an unpolarized sky",
+            scale,
+            ColourMap::Diverging,
+            "Jy/beam",
+        );
+        write_image_png(&dir.join("stokes-v-dirty.png"), view, &c.geometry, &options)?;
     }
     let mut bars: Vec<(String, f64)> =
         c.scores.iter().map(|(n, s)| (n.clone(), s.image.floor.rms_jy_per_beam)).collect();
@@ -311,13 +358,15 @@ fn write_plots(c: &OutputContext<'_>, dir: &Path) -> Result<(), RunError> {
     );
     flux.scale = AxisScale::Log;
     write_bar_chart(&dir.join("source-flux-errors.png"), &flux)?;
-    let mut alpha = BarChart::new(
-        "per-source spectral-index error (vs the fitted truth)",
-        "|α error|",
-        source_bars(&|s| s.alpha_error_vs_fit.abs()),
-    );
-    alpha.scale = AxisScale::Log;
-    write_bar_chart(&dir.join("source-alpha-errors.png"), &alpha)?;
+    if has_alpha_chart(c) {
+        let mut alpha = BarChart::new(
+            "per-source spectral-index error (vs the fitted truth)",
+            "|α error|",
+            source_bars(&|s| s.alpha_error_vs_fit.abs()),
+        );
+        alpha.scale = AxisScale::Log;
+        write_bar_chart(&dir.join("source-alpha-errors.png"), &alpha)?;
+    }
     let series = c
         .scores
         .iter()

@@ -3,6 +3,7 @@
 use std::path::{Path, PathBuf};
 use std::time::Instant;
 
+use beamfloor_beam::DishBeam;
 use beamfloor_core::ImageGeometry;
 use beamfloor_deconv::{CycleReport, DeconvError};
 use beamfloor_imaging::{imaging_weights, Weighting};
@@ -10,6 +11,8 @@ use beamfloor_metrics::{score_strategy, RestoringBeam as MetricsBeam, ScoreParam
 use beamfloor_predict::VisSet;
 
 use super::outputs::{write_outputs, OutputContext};
+use super::quick_estimate::{quick_estimate, QuickEstimate};
+use super::stokes_v::{stokes_v, StokesV};
 use super::strategy::{image_strategy, BeamTaylor, StrategyImages};
 use super::truth::{channel_weights, source_truths, truth_convolved_i0};
 use super::{check_strategies, image_noise_jy, RunError};
@@ -64,6 +67,12 @@ pub struct RunSummary {
     pub skipped: Vec<(String, String)>,
     /// Wall time per stage, s, in order.
     pub timings: Vec<(String, f64)>,
+    /// The quick estimate of the average-beam floor beside the measured one, when an average-beam
+    /// (`"plain"`/`"w"`) strategy was imaged and the truth has a beam.
+    pub quick_estimate: Option<QuickEstimate>,
+    /// Largest |V| over largest |I| of the dirty images (instrumental circular polarization of
+    /// an unpolarized sky, e.g. from squint), when both hands were simulated.
+    pub stokes_v_leakage: Option<f64>,
 }
 
 /// Runs `config` (read from `config_path`, which locates relative files) into `out_dir`.
@@ -92,7 +101,8 @@ pub fn run_experiment(
 
     observer.stage("building the scenario");
     let t = Instant::now();
-    let scenario = Scenario::build(config, config_path)?;
+    let scenario = super::preflight(config, config_path)?.scenario;
+    super::begin_run(out_dir, config)?;
     timings.push(("scenario".to_string(), t.elapsed().as_secs_f64()));
 
     let t = Instant::now();
@@ -134,6 +144,7 @@ pub fn run_experiment(
     let mut images: Vec<StrategyImages> = Vec::with_capacity(count);
     let mut scores: Vec<(String, Scores)> = Vec::with_capacity(count);
     let mut truths = Vec::with_capacity(count);
+    let mut imaged_indices = Vec::with_capacity(count);
     let mut skipped: Vec<(String, String)> = unavailable
         .iter()
         .map(|(i, e)| (config.strategy[*i].name.clone(), e.to_string()))
@@ -208,6 +219,7 @@ pub fn run_experiment(
         scores.push((name, strategy_scores));
         truths.push((sources, truth_i0, beam_taylor));
         images.push(result);
+        imaged_indices.push(index);
     }
 
     if images.is_empty() {
@@ -215,6 +227,28 @@ pub fn run_experiment(
             reasons: skipped.iter().map(|(name, why)| format!("{name}: {why}")).collect(),
         });
     }
+    observer.stage("quick estimate of the average-beam floor");
+    let t = Instant::now();
+    let floors: Vec<f64> = scores.iter().map(|(_, s)| s.image.floor.rms_jy_per_beam).collect();
+    let estimate = quick_estimate(
+        config,
+        &scenario,
+        &vis,
+        &weights,
+        geometry,
+        &images,
+        &imaged_indices,
+        &floors,
+        sigma_img,
+        &|index| averaging_beam(config, index, &scenario, &geometry),
+    )?;
+    timings.push(("quick estimate".to_string(), t.elapsed().as_secs_f64()));
+
+    observer.stage("Stokes V dirty image");
+    let t = Instant::now();
+    let v = stokes_v(&vis, &weights, geometry, config.imaging.accuracy, scenario.ref_freq_hz)?;
+    timings.push(("Stokes V".to_string(), t.elapsed().as_secs_f64()));
+
     observer.stage("writing outputs");
     let t = Instant::now();
     let context = OutputContext {
@@ -230,6 +264,8 @@ pub fn run_experiment(
         truths: &truths,
         reused_visibilities: reused,
         skipped: &skipped,
+        quick_estimate: estimate.as_ref(),
+        stokes_v: v.as_ref(),
     };
     timings.push(("outputs".to_string(), 0.0));
     let report_html = write_outputs(&context, &mut timings, run_start, t)?;
@@ -245,6 +281,7 @@ pub fn run_experiment(
             seconds: im.seconds,
         })
         .collect();
+    super::finish_run(out_dir, config)?;
     Ok(RunSummary {
         out_dir: out_dir.to_path_buf(),
         report_html,
@@ -253,6 +290,8 @@ pub fn run_experiment(
         strategies,
         skipped,
         timings,
+        quick_estimate: estimate,
+        stokes_v_leakage: v.as_ref().map(StokesV::leakage),
     })
 }
 
@@ -265,9 +304,8 @@ fn existing_visibilities(dir: &Path, truth_hash: &str) -> Option<VisSet> {
 }
 
 /// The averaged, symmetrized imaging beam's Taylor coefficients over the channels, for the
-/// primary-beam correction of plain and w gridding: the strategy's imaging beam (`[beam]` with
-/// its `imaging_beam` overrides) with the truth's effect switches, minus the per-antenna pointing
-/// errors an imager cannot know. None when the truth has no beam (nothing to divide by).
+/// primary-beam correction of plain and w gridding (see [`averaging_beam`]). None when the truth
+/// has no beam (nothing to divide by).
 fn averaged_beam_taylor(
     config: &Config,
     index: usize,
@@ -276,6 +314,25 @@ fn averaged_beam_taylor(
     geometry: &ImageGeometry,
     n_terms: usize,
 ) -> Result<BeamTaylor, RunError> {
+    let Some(beam) = averaging_beam(config, index, scenario, geometry)? else {
+        return Ok(None);
+    };
+    let taylor = beam
+        .average_power_taylor(geometry, &vis.frequencies_hz, n_terms)
+        .map_err(|source| RunError::Beam { what: "averaged beam Taylor terms".into(), source })?;
+    Ok(Some(taylor))
+}
+
+/// The beam whose time average and azimuthal symmetrization plain and w gridding divide out:
+/// the strategy's imaging beam (`[beam]` with its `imaging_beam` overrides) with the truth's
+/// effect switches, minus the per-antenna pointing errors an imager cannot know. None when the
+/// truth has no beam.
+fn averaging_beam(
+    config: &Config,
+    index: usize,
+    scenario: &Scenario,
+    geometry: &ImageGeometry,
+) -> Result<Option<DishBeam>, RunError> {
     if !config.truth.beam {
         return Ok(None);
     }
@@ -291,9 +348,5 @@ fn averaged_beam_taylor(
         1.1 * hx.hypot(hy),
         config.experiment.seed,
     )?;
-    let beam = build_beam(&params, &scenario.observation)?;
-    let taylor = beam
-        .average_power_taylor(geometry, &vis.frequencies_hz, n_terms)
-        .map_err(|source| RunError::Beam { what: "averaged beam Taylor terms".into(), source })?;
-    Ok(Some(taylor))
+    Ok(Some(build_beam(&params, &scenario.observation)?))
 }
