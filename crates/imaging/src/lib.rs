@@ -16,6 +16,11 @@
 //! image and [`flat_noise`] / [`flat_sky`] normalisation; wideband A-projection grids with the
 //! beam at a conjugate frequency ([`reciprocal_conjugate_frequency`] or the numerically
 //! [`fitted_conjugate_frequencies`]). [`DirectBeamOperator`] is its direct-sum reference.
+//! [`KernelAProjection`] is the same operator with oversampled uv-domain A-kernels (the ES
+//! kernel convolved with the beam's uv transform) on shared w-stacking planes: far faster, with
+//! an error set by the kernel oversampling (see [`KernelAProjectionParams`]); size its tables
+//! first with [`kernel_table_bytes`] and tabulate the imaging beam out to
+//! [`kernel_beam_half_width_rad`].
 //!
 //! Conventions:
 //! - uvw in metres per row (antenna2 − antenna1), converted to wavelengths per channel as ν/c.
@@ -55,7 +60,7 @@ pub use aproj::{
     kernel_beam_half_width_rad, kernel_table_bytes, main_lobe_mismatch,
     reciprocal_conjugate_frequency, screen_cache_bytes, AProjection, AProjectionParams,
     ConjugateFitParams, ConjugateFrequency, DirectBeamOperator, KernelAProjection,
-    KernelAProjectionParams, KernelInterpolation, KernelTableEstimate,
+    KernelAProjectionParams, KernelInterpolation, KernelTableEstimate, KernelView,
 };
 pub use direct::DirectOperator;
 pub use dirty::{dirty_images, predict_visibilities, DirtyImages, TaylorTerms};

@@ -358,3 +358,208 @@ fn refuses_bad_inputs() {
     assert!(err.to_string().contains("kernel_beam_half_width_rad"), "{err}");
     let _ = GridderParams::default();
 }
+
+/// Demo-size timing (run by hand: `cargo test --release --test aproj_kernels -- --ignored
+/// --nocapture`): 720² image of 18″ pixels, 24 antennas × 35 times × 8 channels × 2 hands,
+/// 12 PA bins, ε = 1e-7 with w-stacking, synthetic tracks. Prints the table estimate, the time
+/// to build the kernels, one grid and one degrid pass, and the image-domain operator's time
+/// for one (bin, channel) pair, scaled to all 96 pairs.
+#[test]
+#[ignore = "takes minutes; prints timings for the report"]
+fn demo_size_timing() {
+    use std::time::Instant;
+    let n_ant = 24;
+    let n_time = 35;
+    let n_bins = 12;
+    let geometry = ImageGeometry::new(720, 720, 18.0 / 3600.0 * PI / 180.0);
+    let mut r = rng(900);
+    let ant: Vec<[f64; 2]> = (0..n_ant)
+        .map(|_| {
+            let (rad, th) =
+                (250.0 * r.random_range(0.0f64..1.0).sqrt(), r.random_range(0.0..2.0 * PI));
+            [rad * th.cos(), rad * th.sin()]
+        })
+        .collect();
+    let (lat, dec) = (-0.5f64, -0.7f64);
+    let mut uvw = Vec::new();
+    let (mut a1, mut a2, mut ti) = (Vec::new(), Vec::new(), Vec::new());
+    for a in 0..n_ant {
+        for b in a + 1..n_ant {
+            let (e, n) = (ant[b][0] - ant[a][0], ant[b][1] - ant[a][1]);
+            // ENU (up = 0) → equatorial X, Y, Z (Thompson, Moran & Swenson, eq. 4.15).
+            let (x, y, z) = (-n * lat.sin(), e, n * lat.cos());
+            for t in 0..n_time {
+                let h = (-1.5 + 3.0 * t as f64 / (n_time - 1) as f64) * PI / 12.0;
+                // Thompson, Moran & Swenson, eq. 4.1.
+                uvw.push([
+                    h.sin() * x + h.cos() * y,
+                    -dec.sin() * h.cos() * x + dec.sin() * h.sin() * y + dec.cos() * z,
+                    dec.cos() * h.cos() * x - dec.cos() * h.sin() * y + dec.sin() * z,
+                ]);
+                a1.push(a as u32);
+                a2.push(b as u32);
+                ti.push(t as u32);
+            }
+        }
+    }
+    let freqs: Vec<f64> = (0..8).map(|c| 1.0e9 + c as f64 * 1.0e9 / 7.0).collect();
+    let mut vis = common::visset(Array2::from_shape_fn((uvw.len(), 3), |(i, k)| uvw[i][k]), freqs);
+    vis.antenna1 = a1;
+    vis.antenna2 = a2;
+    vis.time_index = ti;
+    vis.hour_angles_rad = vec![0.0; n_time];
+    vis.parallactic_angles_rad = vec![0.0; n_time];
+    vis.data = random_values(&mut r, vis.data.dim());
+    let bins: Vec<usize> = (0..n_time).map(|t| t * n_bins / n_time).collect();
+    let t0 = Instant::now();
+    let half = kernel_beam_half_width_rad(geometry).expect("geometry");
+    let pas: Vec<f64> = (0..n_bins).map(|b| -1.0 + 2.0 * b as f64 / n_bins as f64).collect();
+    let beam = DishBeam::new(
+        &DishBeamParams {
+            aperture: ApertureParams { dish_diameter_m: 13.5, ..ApertureParams::default() },
+            effects: EffectParams {
+                squint: SquintParams { fraction_of_hpbw: 0.03, direction_rad: 0.5 },
+                ..EffectParams::default()
+            },
+            ref_freq_hz: NU0,
+            max_abs_lm: half,
+            max_freq_hz: 2.0e9,
+            ..DishBeamParams::default()
+        },
+        pas,
+        (0..n_bins).map(|b| 900.0 * b as f64).collect(),
+    )
+    .expect("beam");
+    println!("beam tabulated to {half:.4} rad in {:.1} s", t0.elapsed().as_secs_f64());
+    let w = WRange::of_visibilities(&vis).expect("valid set");
+    let p = KernelAProjectionParams::default();
+    let t0 = Instant::now();
+    let est =
+        kernel_table_bytes(geometry, &beam, n_bins, &vis.frequencies_hz, &p).expect("estimate");
+    println!("estimate {est:?} in {:.1} s", t0.elapsed().as_secs_f64());
+    let t0 = Instant::now();
+    let op =
+        KernelAProjection::new(geometry, &beam, bins.clone(), vis.frequencies_hz.clone(), w, p)
+            .expect("plan");
+    println!(
+        "kernels built in {:.1} s; {} w planes, padded {:?}",
+        t0.elapsed().as_secs_f64(),
+        op.grid_plan().n_w_planes(),
+        op.grid_plan().padded_size()
+    );
+    let flops = op.flop_count(&vis, 1).expect("flops");
+    let t0 = Instant::now();
+    let img = grid_one(&op, &vis, &vis.data);
+    let tg = t0.elapsed().as_secs_f64();
+    let t0 = Instant::now();
+    let _ = op.degrid(&vis, &[img], &[ones(8)]).expect("degrid");
+    let td = t0.elapsed().as_secs_f64();
+    println!(
+        "kernel operator: grid {tg:.1} s, degrid {td:.1} s ({:.2e} flops each; {:.1} / {:.1} GFLOP/s wall)",
+        flops,
+        flops / tg / 1e9,
+        flops / td / 1e9
+    );
+    // The image-domain operator on one (bin, channel) pair: rows of bin 5, channel 4.
+    let rows: Vec<usize> =
+        (0..vis.n_rows()).filter(|&k| bins[vis.time_index[k] as usize] == 5).collect();
+    let mut sub = common::visset(
+        Array2::from_shape_fn((rows.len(), 3), |(i, k)| vis.uvw_m[[rows[i], k]]),
+        vec![vis.frequencies_hz[4]],
+    );
+    sub.time_index = rows.iter().map(|&k| vis.time_index[k]).collect();
+    sub.hour_angles_rad = vec![0.0; n_time];
+    sub.parallactic_angles_rad = vec![0.0; n_time];
+    sub.data = random_values(&mut r, sub.data.dim());
+    let exact = AProjection::new(
+        geometry,
+        &beam,
+        bins,
+        sub.frequencies_hz.clone(),
+        w,
+        AProjectionParams { assume_identical_antennas: true, ..AProjectionParams::default() },
+    )
+    .expect("plan");
+    let t0 = Instant::now();
+    let img = grid_one(&exact, &sub, &sub.data);
+    let _ = exact.degrid(&sub, &[img], &[ones(1)]).expect("degrid");
+    let te = t0.elapsed().as_secs_f64();
+    println!(
+        "image-domain operator: grid + degrid of one (bin, channel) pair {te:.1} s; × {} pairs ≈ {:.0} s",
+        n_bins * 8,
+        te * (n_bins * 8) as f64
+    );
+}
+
+/// Exports one kernel of a uniformly illuminated disc (Airy power pattern) for
+/// `tests/crosscheck/test_aproj_kernels.py`, which recomputes K(t) = ∫∫ ψ̂ ψ̂ A e^{2πi ξ·t} dξ
+/// with numpy from scipy's J1 and its own quadrature of the ES kernel's transform.
+#[test]
+fn export_a_disc_kernel_for_the_crosscheck() {
+    let d = 12.0;
+    let g = geometry();
+    let beam = DishBeam::new(
+        &DishBeamParams {
+            // 512 samples across: the beam crate measured ≤ 6e-6 of the field against Airy.
+            aperture: ApertureParams { samples_across: 512, ..ApertureParams::uniform_disc(d) },
+            effects: EffectParams::default(),
+            ref_freq_hz: NU0,
+            max_abs_lm: kernel_beam_half_width_rad(g).expect("geometry"),
+            max_freq_hz: 2.0e9,
+            ..DishBeamParams::default()
+        },
+        vec![0.0],
+        vec![0.0],
+    )
+    .expect("valid beam");
+    let freq = 1.5e9;
+    let vis = common::visset(Array2::zeros((1, 3)), vec![freq]);
+    let p = KernelAProjectionParams {
+        gridder: GridderParams { epsilon: 1e-7, w_term: beamfloor_imaging::WTerm::Ignore },
+        oversampling: 4,
+        ..KernelAProjectionParams::default()
+    };
+    let w = WRange::of_visibilities(&vis).expect("valid set");
+    let op = KernelAProjection::new(g, &beam, vec![0], vec![freq], w, p).expect("plan");
+    let view = op.kernel_view(0, 0, beamfloor_core::Pol::R).expect("kernel");
+    let o = view.oversampling() as i64;
+    // Lattice points along both axes, a diagonal and off-axis, from the centre to the edge.
+    let points: Vec<(i64, i64)> = vec![
+        (0, 0),
+        (1, 0),
+        (0, 3),
+        (5, 2),
+        (-7, 4),
+        (2 * o, -o),
+        (-3 * o, 0),
+        (4 * o, 4 * o),
+        (9 * o, 1),
+        (-2, 11 * o),
+    ];
+    let mut values = Vec::new();
+    for &(kx, ky) in &points {
+        let v = view.value(kx, ky).expect("inside the table");
+        values.push(format!("[{kx},{ky},{:e},{:e}]", v.re, v.im));
+    }
+    // A lattice point outside the table has no value.
+    assert!(view.value(view.support() as i64 * o, 0).is_none());
+    let plan = op.grid_plan();
+    let json = format!(
+        "{{\"nx\":{},\"cell_rad\":{:e},\"pad\":{},\"support_w\":{},\"beta\":{:e},\
+         \"dish_diameter_m\":{d:e},\"freq_hz\":{freq:e},\"oversampling\":{o},\"support\":{},\
+         \"points\":[{}]}}",
+        g.nx,
+        g.cell_rad,
+        plan.padded_size().0,
+        plan.kernel().support(),
+        plan.kernel().beta(),
+        view.support(),
+        values.join(",")
+    );
+    let dir =
+        std::env::var_os("BEAMFLOOR_CROSSCHECK_DIR").map(std::path::PathBuf::from).unwrap_or_else(
+            || std::path::PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("../../target/crosscheck"),
+        );
+    std::fs::create_dir_all(&dir).expect("create export dir");
+    std::fs::write(dir.join("aproj_kernels.json"), json).expect("write export");
+}

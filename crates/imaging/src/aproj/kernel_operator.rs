@@ -78,6 +78,44 @@ pub struct KernelTableEstimate {
     pub max_support: usize,
 }
 
+/// A read-only view of one tabulated A-kernel K(t) (see [`KernelAProjection`]): samples on
+/// the lattice t = k / O cells (k integer per axis) with |t| within the support.
+#[derive(Clone, Copy, Debug)]
+pub struct KernelView<'a> {
+    table: &'a KernelTable,
+}
+
+impl KernelView<'_> {
+    /// Support S (odd), cells.
+    pub fn support(&self) -> usize {
+        self.table.support
+    }
+
+    /// Oversampling O.
+    pub fn oversampling(&self) -> usize {
+        self.table.oversampling
+    }
+
+    /// K at t = (k_x / O, k_y / O) cells, as stored (single precision widened), or None when
+    /// t lies outside the table (|t| beyond about S/2).
+    pub fn value(&self, k_x: i64, k_y: i64) -> Option<num_complex::Complex64> {
+        let t = self.table;
+        let (o, h) = (t.oversampling as i64, (t.support / 2) as i64);
+        // Entry (f, j) holds t · O = (j − h) O − (f − ⌊O/2⌋): find one with 0 ≤ j < S.
+        let find = |k: i64| {
+            (0..=o).find_map(|f| {
+                let num = k + f - o / 2;
+                let j = num.div_euclid(o) + h;
+                (num.rem_euclid(o) == 0 && (0..t.support as i64).contains(&j))
+                    .then_some((f as usize, j as usize))
+            })
+        };
+        let ((fx, jx), (fy, jy)) = (find(k_x)?, find(k_y)?);
+        let v = t.slice(fy, fx)[jy * t.support + jx];
+        Some(num_complex::Complex64::new(v.re as f64, v.im as f64))
+    }
+}
+
 /// Which beam a kernel set carries.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub(crate) enum Side {
@@ -429,6 +467,18 @@ impl<'a, B: VoltageBeam + ?Sized> KernelAProjection<'a, B> {
     /// The underlying exponential-of-semicircle plan (w planes, padded grid).
     pub fn grid_plan(&self) -> &GridPlan {
         &self.plan
+    }
+
+    /// The tabulated prediction kernel of PA bin `bin`, channel `channel` and receptor `pol`
+    /// (None when the bin or channel is out of range).
+    pub fn kernel_view(&self, bin: usize, channel: usize, pol: Pol) -> Option<KernelView<'_>> {
+        if bin >= self.layout.n_bins || channel >= self.frequencies_hz.len() {
+            return None;
+        }
+        let hand = if pol == Pol::R { 0 } else { 1 };
+        let t = &self.tables
+            [self.layout.index(Side::Forward, bin, self.layout.group_of_channel[channel], hand)];
+        Some(KernelView { table: t })
     }
 
     /// The exact adjoint of this operator's `degrid`: the same tables, gridding with the

@@ -22,7 +22,7 @@ pub use conjugate::{
 pub use direct_beam::DirectBeamOperator;
 pub use kernel_operator::{
     kernel_table_bytes, KernelAProjection, KernelAProjectionParams, KernelInterpolation,
-    KernelTableEstimate,
+    KernelTableEstimate, KernelView,
 };
 pub use kernel_table::kernel_beam_half_width_rad;
 pub use operator::{AProjection, AProjectionParams, ConjugateFrequency};
