@@ -181,6 +181,39 @@ pub struct BeamOverride {
     /// Replaces `beam.ripple`.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub ripple: Option<RippleConfig>,
+    /// Which way the imaging beam turns on the sky as the parallactic angle q changes (alt-az
+    /// mounts only; `[beam]` has no such key, the truth always turns by +q):
+    /// `"parallactic"` turns it by +q like the truth; `"reversed"` turns it by −q, a deliberate
+    /// model mismatch ("what if my imaging beam rotates the wrong way?") that shows how much of
+    /// a correction rests on getting the sense of rotation right. Needs the imaging beam's
+    /// mount to be `"alt-az"` (an equatorial beam does not turn). Only A-projection strategies
+    /// use it; the averaged beam of `"plain"` and `"w"` is symmetrized over azimuth, which no
+    /// rotation changes. Default: `"parallactic"`.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub rotation: Option<BeamRotation>,
+}
+
+/// The sense in which an imaging beam turns with the parallactic angle (see
+/// [`BeamOverride::rotation`]).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum BeamRotation {
+    /// By +q, as the truth beam turns.
+    #[default]
+    Parallactic,
+    /// By −q: the wrong sense, on purpose.
+    Reversed,
+}
+
+impl BeamRotation {
+    /// The factor the parallactic angle is multiplied by before the imaging beam is turned:
+    /// +1 or −1.
+    pub fn sign(self) -> f64 {
+        match self {
+            BeamRotation::Parallactic => 1.0,
+            BeamRotation::Reversed => -1.0,
+        }
+    }
 }
 
 impl BeamOverride {
@@ -197,6 +230,24 @@ impl BeamOverride {
                 .unwrap_or(base.squint_fraction_of_hpbw),
             pointing: self.pointing.clone().unwrap_or_else(|| base.pointing.clone()),
             ripple: self.ripple.clone().unwrap_or_else(|| base.ripple.clone()),
+        }
+    }
+
+    /// The sense of rotation of the imaging beam (`rotation`, default `"parallactic"`).
+    pub fn rotation(&self) -> BeamRotation {
+        self.rotation.unwrap_or_default()
+    }
+
+    /// Checks the keys that exist only in an override; `p` is its key path
+    /// (`strategy[i].imaging_beam`), `resolved` the beam it produces ([`BeamOverride::apply_to`]).
+    pub(crate) fn check(&self, c: &mut Checker, p: &str, resolved: &BeamConfig) {
+        if self.rotation() == BeamRotation::Reversed && resolved.mount == Mount::Equatorial {
+            c.fail(
+                &format!("{p}.rotation"),
+                "\"reversed\"",
+                "needs an imaging beam that turns (mount = \"alt-az\"); an equatorial beam has \
+                 no rotation to reverse",
+            );
         }
     }
 }

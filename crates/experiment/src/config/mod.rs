@@ -60,7 +60,8 @@ mod truth;
 
 pub use array::{ArrayConfig, Layout, LogSpiralLayout, RandomDiscLayout};
 pub use beam::{
-    BeamConfig, BeamOverride, LegsConfig, Mount, PedestalTaper, PointingConfig, RippleConfig, Taper,
+    BeamConfig, BeamOverride, BeamRotation, LegsConfig, Mount, PedestalTaper, PointingConfig,
+    RippleConfig, Taper,
 };
 pub use error::{ConfigError, Location};
 pub use experiment::ExperimentSection;

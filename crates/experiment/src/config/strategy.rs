@@ -244,8 +244,10 @@ impl StrategyConfig {
                 "only applies with gridding = \"wideband-a\"; remove it",
             );
         }
-        if let Some(_override) = &self.imaging_beam {
-            self.imaging_beam(truth_beam).check(c, &format!("{p}.imaging_beam"), antennas);
+        if let Some(over) = &self.imaging_beam {
+            let resolved = self.imaging_beam(truth_beam);
+            resolved.check(c, &format!("{p}.imaging_beam"), antennas);
+            over.check(c, &format!("{p}.imaging_beam"), &resolved);
         }
         let cl = &self.clean;
         let cp = format!("{p}.clean");

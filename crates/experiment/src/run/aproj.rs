@@ -64,7 +64,8 @@ pub fn parallactic_angle_bins(pa_rad: &[f64], bin_width_rad: f64) -> (Vec<usize>
 /// The strategy's imaging beam (`[beam]` with its `imaging_beam` overrides and the truth's effect
 /// switches, minus per-antenna pointing errors that an imager cannot know) on PA bins of the
 /// strategy's `pa_bin_deg`, covering `max_freq_hz` (the conjugate frequencies may lie above the
-/// band).
+/// band). With `imaging_beam.rotation = "reversed"` the beam is turned by −q instead of +q (each
+/// bin's angle is negated; the binning itself is unchanged).
 pub fn binned_imaging_beam(
     config: &Config,
     index: usize,
@@ -91,6 +92,8 @@ pub fn binned_imaging_beam(
         &observation.timeline.parallactic_angles_rad,
         strategy.pa_bin_deg.to_radians(),
     );
+    let sign = strategy.imaging_beam.as_ref().map_or(1.0, |o| o.rotation().sign());
+    let centres: Vec<f64> = centres.into_iter().map(|q| sign * q).collect();
     let times = vec![0.0; centres.len()];
     let beam = DishBeam::new(&params, centres, times)
         .map_err(|source| RunError::Beam { what: "imaging beam on PA bins".into(), source })?;
