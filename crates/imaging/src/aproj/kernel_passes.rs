@@ -18,8 +18,8 @@ const ZERO: Complex64 = Complex64 { re: 0.0, im: 0.0 };
 /// Grid rows per gridding band (the unit of parallel work; fixed, so results do not depend on
 /// the thread count).
 const BAND_ROWS: usize = 32;
-/// Visibility rows per degridding task.
-const DEGRID_ROWS: usize = 128;
+/// Samples per degridding task.
+const DEGRID_SITES: usize = 256;
 
 /// One (row, channel) sample placed on the kernel lattice of one side's tables.
 #[derive(Clone, Copy, Debug)]
@@ -212,24 +212,28 @@ impl<B: VoltageBeam + ?Sized> KernelAProjection<'_, B> {
     }
 
     /// Floating-point operations of one `grid` call with `n_outputs` images (`degrid` with as
-    /// many images costs the same): per sample, plane touched and correlation, S² cells of
-    /// 8 flops (complex multiply-add) per image, plus 14 per cell to interpolate the kernel
-    /// bilinearly. Used to report GFLOP/s.
+    /// many images costs the same): per sample and correlation, S² kernel cells, each
+    /// interpolated once (14 flops, bilinear) and then multiplied into every plane the sample
+    /// touches and every image (8 flops per complex multiply-add). Used to report GFLOP/s.
     pub fn flop_count(&self, vis: &VisSet, n_outputs: usize) -> Result<f64, ImagingError> {
         let bins = self.bins_of_rows(vis)?;
         let sites = self.sites(vis, &bins, Side::Forward);
-        let per_cell = 8.0 * n_outputs as f64
-            + match self.params.interpolation {
-                KernelInterpolation::Nearest => 0.0,
-                KernelInterpolation::Bilinear => 14.0,
-            };
-        let n_planes = self.plan.n_w_planes();
+        let build = match self.params.interpolation {
+            KernelInterpolation::Nearest => 0.0,
+            KernelInterpolation::Bilinear => 14.0,
+        };
         let n_corr = vis.n_correlations() as f64;
         Ok(sites
             .iter()
             .map(|s| {
-                let planes = (0..n_planes).filter(|&p| self.plane_weight(s.w, p) != 0.0).count();
-                (s.support * s.support) as f64 * per_cell * planes as f64 * n_corr
+                let (p, count) = self.plane_span(s.w);
+                let planes = (p..p + count).filter(|&q| self.plane_weight(s.w, q) != 0.0).count();
+                let cells = (s.support * s.support) as f64 * n_corr;
+                if planes == 0 {
+                    0.0
+                } else {
+                    cells * (build + 8.0 * (n_outputs * planes) as f64)
+                }
             })
             .sum())
     }
@@ -241,14 +245,62 @@ struct Visit {
     site: usize,
     j0: usize,
     j1: usize,
-    kw: f64,
 }
+
+impl<B: VoltageBeam + ?Sized> KernelAProjection<'_, B> {
+    /// First plane and number of planes (≤ W) a sample at plane coordinate `w` touches.
+    #[inline]
+    fn plane_span(&self, w: f64) -> (usize, usize) {
+        let Some(planes) = self.plan.planes else { return (0, 1) };
+        let half = 0.5 * self.plan.kernel.support() as f64;
+        let lo = ((w - half).floor() + 1.0).max(0.0) as usize;
+        let hi = ((w + half).ceil() - 1.0).min(planes.count as f64 - 1.0);
+        if hi < lo as f64 {
+            (lo, 0)
+        } else {
+            (lo, hi as usize - lo + 1)
+        }
+    }
+
+    /// Planes held at once: W with w-stacking (a sample spans W planes), else 1.
+    fn window(&self) -> usize {
+        match self.plan.planes {
+            Some(p) => self.plan.kernel.support().min(p.count),
+            None => 1,
+        }
+    }
+
+    /// Sites bucketed by their first plane, with their plane spans.
+    fn buckets(&self, sites: &[Site]) -> (Vec<(usize, usize)>, Vec<Vec<usize>>) {
+        let spans: Vec<(usize, usize)> = sites.iter().map(|s| self.plane_span(s.w)).collect();
+        let mut buckets = vec![Vec::new(); self.plan.n_w_planes()];
+        for (i, &(lo, count)) in spans.iter().enumerate() {
+            if count > 0 {
+                buckets[lo].push(i);
+            }
+        }
+        (spans, buckets)
+    }
+
+    /// Images (or outputs) per pass so that W padded grids per image fit in [`WINDOW_BYTES`].
+    fn batch(&self, n: usize) -> usize {
+        let grid = self.plan.pad_nx * self.plan.pad_ny * std::mem::size_of::<Complex64>();
+        (WINDOW_BYTES / (self.window() * grid)).clamp(1, n.max(1))
+    }
+}
+
+/// Memory for the sliding window of w-plane grids (W per image); more images than fit are done
+/// in several passes.
+const WINDOW_BYTES: usize = 1 << 30;
 
 impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
     fn geometry(&self) -> ImageGeometry {
         self.plan.geometry
     }
 
+    /// Spreading runs over a sliding window of W w-planes: the samples whose first plane is p
+    /// are spread onto all their planes at once (each kernel row interpolated once, used for
+    /// every plane and output), after which plane p is complete, transformed and recycled.
     fn grid(
         &self,
         vis: &VisSet,
@@ -264,103 +316,149 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
             return Ok(images);
         }
         let sites = self.sites(vis, &bins, Side::Gridding);
+        let (spans, buckets) = self.buckets(&sites);
         let (px, py) = (self.plan.pad_nx, self.plan.pad_ny);
         let n_bands = py.div_ceil(BAND_ROWS);
-        let mut grids = vec![vec![ZERO; px * py]; outputs.len()];
-        let mut scratch = vec![ZERO; px * py];
         let (nc, np) = (vis.n_channels(), vis.n_correlations());
         let hands: Vec<usize> = vis.correlations.iter().map(|c| hand(c.receptor())).collect();
-        let n_out = outputs.len();
         let simd = RowSimd::detect();
-        for p in 0..self.plan.n_w_planes() {
-            let mut bands: Vec<Vec<Visit>> = vec![Vec::new(); n_bands];
-            for (i, s) in sites.iter().enumerate() {
-                let kw = self.plane_weight(s.w, p);
-                if kw == 0.0 {
-                    continue;
-                }
-                let mut j = 0;
-                while j < s.support {
-                    let y = (s.y0 + j as i64).rem_euclid(py as i64) as usize;
-                    let band = y / BAND_ROWS;
-                    let run = (s.support - j).min((band + 1) * BAND_ROWS - y).min(py - y);
-                    bands[band].push(Visit { site: i, j0: j, j1: j + run, kw });
-                    j += run;
-                }
-            }
-            if bands.iter().all(Vec::is_empty) {
-                continue;
-            }
-            grids.par_iter_mut().for_each(|g| g.par_iter_mut().for_each(|v| *v = ZERO));
-            let mut per_band: Vec<Vec<&mut [Complex64]>> =
-                (0..n_bands).map(|_| Vec::with_capacity(n_out)).collect();
-            for grid in grids.iter_mut() {
-                for (b, chunk) in grid.chunks_mut(BAND_ROWS * px).enumerate() {
-                    per_band[b].push(chunk);
-                }
-            }
-            per_band.into_par_iter().zip(bands.par_iter()).enumerate().for_each(
-                |(b, (mut chunks, visits))| {
-                    // Visits sharing a kernel table run together, so that table stays in cache;
-                    // the key is unique per visit, so the order does not depend on threads.
-                    let mut visits = visits.clone();
-                    visits.sort_unstable_by_key(|v| (sites[v.site].tables[0], v.site, v.j0));
-                    let max_s = visits.iter().map(|v| sites[v.site].support).max().unwrap_or(0);
-                    let mut scratch = vec![ZERO; 2 * max_s];
-                    let mut vals = vec![ZERO; n_out * np];
-                    for v in &visits {
-                        let s = &sites[v.site];
-                        let (r, c) = (v.site / nc, v.site % nc);
-                        let mut any = false;
-                        for (o, out) in outputs.iter().enumerate() {
-                            let f = out.channel_factors[c] * v.kw;
-                            for k in 0..np {
-                                let x = sources[out.source][[r, c, k]] * f;
-                                any |= x != ZERO;
-                                vals[o * np + k] = x;
-                            }
+        let window = self.window();
+        let mut scratch = vec![ZERO; px * py];
+        let batch = self.batch(outputs.len());
+        for first in (0..outputs.len()).step_by(batch) {
+            let outs = &outputs[first..(first + batch).min(outputs.len())];
+            let n_out = outs.len();
+            // Slot-major ring: grid of plane p, output o at ring[(p mod W) · n_out + o].
+            let mut ring = vec![vec![ZERO; px * py]; window * n_out];
+            let mut touched = vec![false; window];
+            for (p, bucket) in buckets.iter().enumerate() {
+                if !bucket.is_empty() {
+                    let mut bands: Vec<Vec<Visit>> = vec![Vec::new(); n_bands];
+                    for &i in bucket {
+                        let s = &sites[i];
+                        for q in 0..spans[i].1 {
+                            touched[(p + q) % window] = true;
                         }
-                        if !any {
-                            continue;
+                        let mut j = 0;
+                        while j < s.support {
+                            let y = (s.y0 + j as i64).rem_euclid(py as i64) as usize;
+                            let band = y / BAND_ROWS;
+                            let run = (s.support - j).min((band + 1) * BAND_ROWS - y).min(py - y);
+                            bands[band].push(Visit { site: i, j0: j, j1: j + run });
+                            j += run;
                         }
-                        let n = s.support;
-                        let x0 = s.x0.rem_euclid(px as i64) as usize;
-                        let n1 = n.min(px - x0);
-                        for j in v.j0..v.j1 {
-                            let y =
-                                (s.y0 + j as i64).rem_euclid(py as i64) as usize - b * BAND_ROWS;
-                            let krows = self.kernel_rows(simd, s, &hands, j, &mut scratch);
-                            let (head, tail) = (
-                                [&krows[0][..n1], &krows[1][..n1]],
-                                [&krows[0][n1..], &krows[1][n1..]],
-                            );
-                            for (o, chunk) in chunks.iter_mut().enumerate() {
-                                let line = &mut chunk[y * px..(y + 1) * px];
-                                let vals = &vals[o * np..(o + 1) * np];
-                                accumulate_conj(simd, &mut line[x0..x0 + n1], &head[..np], vals);
-                                if n1 < n {
-                                    accumulate_conj(simd, &mut line[..n - n1], &tail[..np], vals);
+                    }
+                    let mut per_band: Vec<Vec<&mut [Complex64]>> =
+                        (0..n_bands).map(|_| Vec::with_capacity(window * n_out)).collect();
+                    for grid in ring.iter_mut() {
+                        for (b, chunk) in grid.chunks_mut(BAND_ROWS * px).enumerate() {
+                            per_band[b].push(chunk);
+                        }
+                    }
+                    per_band.into_par_iter().zip(bands.par_iter_mut()).enumerate().for_each(
+                        |(b, (mut chunks, visits))| {
+                            // Visits sharing a kernel table run together, so that table stays
+                            // in cache; the key is unique per visit, so the order (and every
+                            // sum) does not depend on the thread count.
+                            visits
+                                .sort_unstable_by_key(|v| (sites[v.site].tables[0], v.site, v.j0));
+                            let max_s =
+                                visits.iter().map(|v| sites[v.site].support).max().unwrap_or(0);
+                            let mut krow_scratch = vec![ZERO; 2 * max_s];
+                            let mut base = vec![ZERO; n_out * np];
+                            let mut vals = vec![ZERO; window * n_out * np];
+                            for v in visits.iter() {
+                                let s = &sites[v.site];
+                                let (r, c) = (v.site / nc, v.site % nc);
+                                let mut any = false;
+                                for (o, out) in outs.iter().enumerate() {
+                                    for k in 0..np {
+                                        let x =
+                                            sources[out.source][[r, c, k]] * out.channel_factors[c];
+                                        any |= x != ZERO;
+                                        base[o * np + k] = x;
+                                    }
+                                }
+                                if !any {
+                                    continue;
+                                }
+                                let count = spans[v.site].1;
+                                for q in 0..count {
+                                    let kw = self.plane_weight(s.w, p + q);
+                                    for (d, x) in vals[q * n_out * np..(q + 1) * n_out * np]
+                                        .iter_mut()
+                                        .zip(&base)
+                                    {
+                                        *d = x * kw;
+                                    }
+                                }
+                                let n = s.support;
+                                let x0 = s.x0.rem_euclid(px as i64) as usize;
+                                let n1 = n.min(px - x0);
+                                for j in v.j0..v.j1 {
+                                    let y = (s.y0 + j as i64).rem_euclid(py as i64) as usize
+                                        - b * BAND_ROWS;
+                                    let krows =
+                                        self.kernel_rows(simd, s, &hands, j, &mut krow_scratch);
+                                    let (head, tail) = (
+                                        [&krows[0][..n1], &krows[1][..n1]],
+                                        [&krows[0][n1..], &krows[1][n1..]],
+                                    );
+                                    for q in 0..count {
+                                        let slot = (p + q) % window;
+                                        for o in 0..n_out {
+                                            let vals = &vals
+                                                [(q * n_out + o) * np..(q * n_out + o + 1) * np];
+                                            let line =
+                                                &mut chunks[slot * n_out + o][y * px..(y + 1) * px];
+                                            accumulate_conj(
+                                                simd,
+                                                &mut line[x0..x0 + n1],
+                                                &head[..np],
+                                                vals,
+                                            );
+                                            if n1 < n {
+                                                accumulate_conj(
+                                                    simd,
+                                                    &mut line[..n - n1],
+                                                    &tail[..np],
+                                                    vals,
+                                                );
+                                            }
+                                        }
+                                    }
                                 }
                             }
+                        },
+                    );
+                }
+                // Plane p is complete: no later sample starts at or below it.
+                let slot = p % window;
+                if !touched[slot] {
+                    continue;
+                }
+                touched[slot] = false;
+                let screen = self.screen(p, 1.0);
+                for (o, image) in images[first..first + n_out].iter_mut().enumerate() {
+                    let grid = &mut ring[slot * n_out + o];
+                    self.plan.fft_inverse.process(grid, &mut scratch);
+                    let img = image.as_slice_mut().expect("fresh array is contiguous");
+                    let grid_ref = &*grid;
+                    img.par_chunks_mut(g.nx).enumerate().for_each(|(iy, line)| {
+                        for (ix, v) in line.iter_mut().enumerate() {
+                            *v += (grid_ref[self.pixel_offset(ix, iy)] * screen[iy * g.nx + ix]).re;
                         }
-                    }
-                },
-            );
-            let screen = self.screen(p, 1.0);
-            for (grid, image) in grids.iter_mut().zip(images.iter_mut()) {
-                self.plan.fft_inverse.process(grid, &mut scratch);
-                let grid = &*grid;
-                let img = image.as_slice_mut().expect("fresh array is contiguous");
-                img.par_chunks_mut(g.nx).enumerate().for_each(|(iy, line)| {
-                    for (ix, v) in line.iter_mut().enumerate() {
-                        *v += (grid[self.pixel_offset(ix, iy)] * screen[iy * g.nx + ix]).re;
-                    }
-                });
+                    });
+                    grid.par_iter_mut().for_each(|v| *v = ZERO);
+                }
             }
         }
         Ok(images)
     }
 
+    /// Interpolation runs over the same sliding window: the planes p .. p + W − 1 are
+    /// transformed when the samples whose first plane is p need them, and each sample reads
+    /// all its planes with one interpolated kernel.
     fn degrid(
         &self,
         vis: &VisSet,
@@ -376,68 +474,103 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
             return Ok(Array3::from_shape_vec((nr, nc, np), out).expect("sized above"));
         }
         let sites = self.sites(vis, &bins, Side::Forward);
+        let (spans, mut buckets) = self.buckets(&sites);
+        for bucket in buckets.iter_mut() {
+            bucket.sort_unstable_by_key(|&i| (sites[i].tables[0], i));
+        }
         let (px, py) = (self.plan.pad_nx, self.plan.pad_ny);
         let nx = self.plan.geometry.nx;
         let hands: Vec<usize> = vis.correlations.iter().map(|c| hand(c.receptor())).collect();
-        let mut grids = vec![vec![ZERO; px * py]; images.len()];
-        let mut scratch = vec![ZERO; px * py];
-        let n_img = images.len();
         let simd = RowSimd::detect();
-        for p in 0..self.plan.n_w_planes() {
-            if !sites.iter().any(|s| self.plane_weight(s.w, p) != 0.0) {
-                continue;
-            }
-            let screen = self.screen(p, -1.0);
-            for (grid, image) in grids.iter_mut().zip(images) {
-                grid.par_iter_mut().for_each(|v| *v = ZERO);
-                let img = image.as_standard_layout();
-                for (k, (&v, &s)) in img.iter().zip(&screen).enumerate() {
-                    grid[self.pixel_offset(k % nx, k / nx)] = s * v;
+        let window = self.window();
+        let n_planes = self.plan.n_w_planes();
+        let mut scratch = vec![ZERO; px * py];
+        let batch = self.batch(images.len());
+        let max_s = sites.iter().map(|s| s.support).max().unwrap_or(0);
+        for first in (0..images.len()).step_by(batch) {
+            let imgs = &images[first..(first + batch).min(images.len())];
+            let factors = &channel_factors[first..first + imgs.len()];
+            let n_img = imgs.len();
+            let mut ring = vec![vec![ZERO; px * py]; window * n_img];
+            let mut holds = vec![usize::MAX; window];
+            for (p, bucket) in buckets.iter().enumerate() {
+                if bucket.is_empty() {
+                    continue;
                 }
-                self.plan.fft_forward.process(grid, &mut scratch);
-            }
-            let grids = &grids;
-            out.par_chunks_mut(DEGRID_ROWS * nc * np).enumerate().for_each(|(task, chunk)| {
-                let r0 = task * DEGRID_ROWS;
-                let max_s = sites.iter().map(|s| s.support).max().unwrap_or(0);
-                let mut scratch = vec![ZERO; 2 * max_s];
-                let mut acc = vec![ZERO; n_img * np];
-                // Channel-major order: consecutive samples share their kernel tables.
-                let rows = chunk.len() / (nc * np);
-                for (c, i) in (0..nc).flat_map(|c| (0..rows).map(move |i| (c, i))) {
-                    let r = r0 + i;
-                    let values = &mut chunk[(i * nc + c) * np..(i * nc + c + 1) * np];
-                    let s = &sites[r * nc + c];
-                    let kw = self.plane_weight(s.w, p);
-                    if kw == 0.0 {
+                let last = bucket.iter().map(|&i| p + spans[i].1).max().unwrap_or(p).min(n_planes);
+                for q in p..last {
+                    let slot = q % window;
+                    if holds[slot] == q {
                         continue;
                     }
-                    let n = s.support;
-                    let x0 = s.x0.rem_euclid(px as i64) as usize;
-                    let n1 = n.min(px - x0);
-                    acc.iter_mut().for_each(|a| *a = ZERO);
-                    for j in 0..n {
-                        let krows = self.kernel_rows(simd, s, &hands, j, &mut scratch);
-                        let (head, tail) = (
-                            [&krows[0][..n1], &krows[1][..n1]],
-                            [&krows[0][n1..], &krows[1][n1..]],
-                        );
-                        let y = (s.y0 + j as i64).rem_euclid(py as i64) as usize;
-                        for (a, grid) in acc.chunks_mut(np).zip(grids) {
-                            let line = &grid[y * px..(y + 1) * px];
-                            dot_rows(simd, &line[x0..x0 + n1], &head[..np], a);
-                            if n1 < n {
-                                dot_rows(simd, &line[..n - n1], &tail[..np], a);
-                            }
+                    holds[slot] = q;
+                    let screen = self.screen(q, -1.0);
+                    for (t, image) in imgs.iter().enumerate() {
+                        let grid = &mut ring[slot * n_img + t];
+                        grid.par_iter_mut().for_each(|v| *v = ZERO);
+                        let img = image.as_standard_layout();
+                        for (k, (&v, &s)) in img.iter().zip(&screen).enumerate() {
+                            grid[self.pixel_offset(k % nx, k / nx)] = s * v;
                         }
-                    }
-                    for (k, value) in values.iter_mut().enumerate() {
-                        let sum: Complex64 =
-                            acc.chunks(np).zip(channel_factors).map(|(a, f)| a[k] * f[c]).sum();
-                        *value += sum * kw;
+                        self.plan.fft_forward.process(grid, &mut scratch);
                     }
                 }
-            });
+                let ring = &ring;
+                let values: Vec<[Complex64; 2]> = bucket
+                    .par_chunks(DEGRID_SITES)
+                    .flat_map_iter(|chunk| {
+                        let mut krow_scratch = vec![ZERO; 2 * max_s];
+                        let mut acc = vec![ZERO; n_img * np];
+                        chunk
+                            .iter()
+                            .map(|&i| {
+                                let s = &sites[i];
+                                let c = i % nc;
+                                let n = s.support;
+                                let x0 = s.x0.rem_euclid(px as i64) as usize;
+                                let n1 = n.min(px - x0);
+                                let mut total = [ZERO; 2];
+                                for q in 0..spans[i].1 {
+                                    let kw = self.plane_weight(s.w, p + q);
+                                    let slot = (p + q) % window;
+                                    acc.iter_mut().for_each(|a| *a = ZERO);
+                                    for j in 0..n {
+                                        let krows =
+                                            self.kernel_rows(simd, s, &hands, j, &mut krow_scratch);
+                                        let (head, tail) = (
+                                            [&krows[0][..n1], &krows[1][..n1]],
+                                            [&krows[0][n1..], &krows[1][n1..]],
+                                        );
+                                        let y = (s.y0 + j as i64).rem_euclid(py as i64) as usize;
+                                        for (t, a) in acc.chunks_mut(np).enumerate() {
+                                            let line =
+                                                &ring[slot * n_img + t][y * px..(y + 1) * px];
+                                            dot_rows(simd, &line[x0..x0 + n1], &head[..np], a);
+                                            if n1 < n {
+                                                dot_rows(simd, &line[..n - n1], &tail[..np], a);
+                                            }
+                                        }
+                                    }
+                                    for (k, tot) in total.iter_mut().enumerate().take(np) {
+                                        let sum: Complex64 = acc
+                                            .chunks(np)
+                                            .zip(factors)
+                                            .map(|(a, f)| a[k] * f[c])
+                                            .sum();
+                                        *tot += sum * kw;
+                                    }
+                                }
+                                total
+                            })
+                            .collect::<Vec<_>>()
+                    })
+                    .collect();
+                for (&i, v) in bucket.iter().zip(&values) {
+                    for k in 0..np {
+                        out[i * np + k] += v[k];
+                    }
+                }
+            }
         }
         Ok(Array3::from_shape_vec((nr, nc, np), out).expect("sized above"))
     }
