@@ -41,9 +41,12 @@ mod error;
 mod hessian;
 mod major;
 mod minor;
+#[cfg(test)]
+mod minor_reference;
 mod plan;
 mod restore;
 mod scales;
+mod sweep;
 
 pub use beam_fit::{fit_restoring_beam, BeamFitParams, RestoringBeam};
 pub use convolve::convolve_same;

@@ -57,6 +57,13 @@ pub struct MajorCycleParams {
     /// exceeds this factor × the previous cycle's (and a minor cycle with
     /// [`DeconvError::MinorCycleDiverged`] on the same factor within itself). > 1. Default 1.5.
     pub divergence_factor: f64,
+    /// The minor cycles subtract each component over the PSF patch outside which the PSF is at
+    /// most this fraction of its peak ([`CleanParams::psf_patch_sidelobe`]); the exact residual
+    /// of the next major cycle corrects what the patch leaves out. It must stay well below
+    /// `minor_cycle_depth` (the error it leaves is at most this fraction of the flux a minor
+    /// cycle subtracts, which is below its starting peak). 0 = the whole PSF. In [0, 1).
+    /// Default 0.02.
+    pub psf_patch_sidelobe: f64,
 }
 
 impl Default for MajorCycleParams {
@@ -68,6 +75,7 @@ impl Default for MajorCycleParams {
             max_major_cycles: 20,
             minor_cycle_depth: 0.2,
             divergence_factor: 1.5,
+            psf_patch_sidelobe: 0.02,
         }
     }
 }
@@ -141,6 +149,7 @@ pub fn run_major_cycles<I: ResidualImager + ?Sized>(
         threshold,
         max_iterations: params.max_iterations,
         divergence_factor: params.divergence_factor,
+        psf_patch_sidelobe: params.psf_patch_sidelobe,
     };
     base.validate()?;
     let n = plan.nterms();

@@ -1,6 +1,7 @@
 use crate::convolve::convolve_same;
 use crate::hessian::check_shape;
 use crate::plan::MinorCyclePlan;
+use crate::sweep::{sweep, Component, LevelSearch, RowCache, SweepResult};
 use crate::DeconvError;
 use ndarray::Array2;
 
@@ -21,11 +22,25 @@ pub struct CleanParams {
     /// Abort with [`DeconvError::MinorCycleDiverged`] if the peak residual exceeds this factor
     /// times its value at the start of the call. Default 2.
     pub divergence_factor: f64,
+    /// PSF patch: when > 0, each component is subtracted only over the smallest centred square
+    /// of the PSFs outside which every |PSF_0 ⊗ Φ_s ⊗ Φ_q| stays at or below this fraction of
+    /// its centre value ([`MinorCyclePlan::psf_patch_half_width`]; the patch of Clark 1980,
+    /// A&A 89, 377). The residuals then drift from the exact ones by at most this fraction of
+    /// the flux subtracted, which a Cotton–Schwab major cycle removes; a minor cycle that stops
+    /// well above that level (see [`crate::MajorCycleParams::psf_patch_sidelobe`]) selects the
+    /// components the whole PSF would. 0 = the whole PSF (exact). In [0, 1). Default 0.
+    pub psf_patch_sidelobe: f64,
 }
 
 impl Default for CleanParams {
     fn default() -> Self {
-        Self { loop_gain: 0.1, threshold: 0.0, max_iterations: 1000, divergence_factor: 2.0 }
+        Self {
+            loop_gain: 0.1,
+            threshold: 0.0,
+            max_iterations: 1000,
+            divergence_factor: 2.0,
+            psf_patch_sidelobe: 0.0,
+        }
     }
 }
 
@@ -44,6 +59,13 @@ impl CleanParams {
                 name: "threshold",
                 value: self.threshold,
                 allowed: "finite, >= 0",
+            });
+        }
+        if !(self.psf_patch_sidelobe >= 0.0 && self.psf_patch_sidelobe < 1.0) {
+            return Err(DeconvError::Parameter {
+                name: "psf_patch_sidelobe",
+                value: self.psf_patch_sidelobe,
+                allowed: "[0, 1)",
             });
         }
         if self.divergence_factor.is_nan() || self.divergence_factor <= 1.0 {
@@ -98,7 +120,8 @@ pub struct MinorCycleOutcome {
 ///    choosing on I0 alone would ignore the spectral terms' share of the fit;
 /// 3. add g · a_j Φ_s at p to model term j, and subtract g · Σ_j a_j (PSF_{i+j} ⊗ Φ_s ⊗ Φ_q)
 ///    shifted to p from every smoothed residual R_i ⊗ Φ_q (a direct patch subtraction over the
-///    overlap of the PSF with the image).
+///    overlap of the PSF with the image, or of its central patch, see
+///    [`CleanParams::psf_patch_sidelobe`]).
 ///
 /// Stops at the threshold on max |R_0| (unsmoothed), the iteration cap, or when nothing is left.
 pub fn run_minor_cycle(
@@ -144,33 +167,14 @@ pub fn run_minor_cycle(
         }
     }
     let (ny, nx) = dim;
-    let npix = ny * nx;
-    let region: Vec<usize> = match mask {
-        Some(m) => m.iter().enumerate().filter(|(_, &b)| b).map(|(i, _)| i).collect(),
-        None => (0..npix).collect(),
-    };
-    let nl = plan.levels.len();
     // Scale s searches only where Φ_s fits inside the image. There the tracked R_i ⊗ Φ_s (updated
     // with PSF ⊗ Φ_s ⊗ Φ_q patches, which assume the residual continues beyond the edge) equals
     // the convolution of the in-image residual exactly; nearer the edge the two drift apart and
     // the search would chase that drift.
-    let level_regions: Vec<Vec<usize>> = plan
-        .levels
-        .iter()
-        .map(|level| {
-            let (hy, hx) = (level.phi.dim().0 / 2, level.phi.dim().1 / 2);
-            region
-                .iter()
-                .copied()
-                .filter(|&p| {
-                    let (y, x) = (p / nx, p % nx);
-                    y >= hy && x >= hx && y + hy < ny && x + hx < nx
-                })
-                .collect()
-        })
-        .collect();
+    let levels = LevelSearch::for_plan(plan, ny, nx);
+    let mask_flat: Option<Vec<bool>> = mask.map(|m| m.iter().copied().collect());
     // smooth[q * n + i]: R_i ⊗ Φ_q, flattened row-major.
-    let mut smooth: Vec<Vec<f64>> = Vec::with_capacity(nl * n);
+    let mut smooth: Vec<Vec<f64>> = Vec::with_capacity(plan.levels.len() * n);
     for level in &plan.levels {
         for r in residuals.iter() {
             let s = if level.phi.len() == 1 {
@@ -182,18 +186,22 @@ pub fn run_minor_cycle(
         }
     }
     let point = plan.point_level;
-    let peak_of = |smooth: &Vec<Vec<f64>>| {
-        region.iter().fold(0.0f64, |m, &p| m.max(smooth[point * n][p].abs()))
+    let patch = if params.psf_patch_sidelobe > 0.0 {
+        let h = plan.psf_patch_half_width(params.psf_patch_sidelobe);
+        (h, h)
+    } else {
+        plan.psf_dim
     };
-
-    let start_peak = peak_of(&smooth);
+    let mut cache = RowCache::new(ny, levels.len());
+    // Steps 1–2 and the peak for the first iteration; afterwards each sweep also applies 3b.
+    let mut found =
+        sweep(plan, &levels, &mut smooth, dim, mask_flat.as_deref(), None, patch, &mut cache);
+    let start_peak = found.peak;
     let mut end_peak = start_peak;
     let mut flux_added = 0.0;
     let mut iterations = 0;
     let mut rv = vec![0.0; n];
     let mut best_a = vec![0.0; n];
-    let (py, px) = plan.psf_dim;
-    let (pcy, pcx) = ((py / 2) as isize, (px / 2) as isize);
     let stop = loop {
         if end_peak <= params.threshold {
             break MinorStop::Threshold;
@@ -201,22 +209,7 @@ pub fn run_minor_cycle(
         if iterations >= params.max_iterations {
             break MinorStop::IterationCap;
         }
-        // 1–2: peak search over scales and pixels.
-        let mut best = (0.0f64, usize::MAX, 0usize);
-        for (s, level) in plan.levels.iter().enumerate() {
-            if level.selectable {
-                let (crit, p) = search_level(
-                    &smooth[s * n..(s + 1) * n],
-                    &level_regions[s],
-                    &level.hessian,
-                    level.bias,
-                );
-                if crit > best.0 {
-                    best = (crit, s, p);
-                }
-            }
-        }
-        let (crit, s, p) = best;
+        let SweepResult { crit, scale: s, pixel: p, .. } = found;
         if crit.is_nan() || crit <= 0.0 || s == usize::MAX {
             break MinorStop::NothingLeft;
         }
@@ -224,7 +217,7 @@ pub fn run_minor_cycle(
             *r = smooth[s * n + i][p];
         }
         plan.levels[s].hessian.solve_into(&rv, &mut best_a);
-        let (cy, cx) = ((p / nx) as isize, (p % nx) as isize);
+        let (cy, cx) = (p / nx, p % nx);
         for a in best_a.iter_mut() {
             *a *= params.loop_gain;
         }
@@ -233,8 +226,8 @@ pub fn run_minor_cycle(
         let (fy, fx) = phi.dim();
         let (fcy, fcx) = ((fy / 2) as isize, (fx / 2) as isize);
         for ((iy, ix), &v) in phi.indexed_iter() {
-            let y = cy + iy as isize - fcy;
-            let x = cx + ix as isize - fcx;
+            let y = cy as isize + iy as isize - fcy;
+            let x = cx as isize + ix as isize - fcx;
             if y >= 0 && x >= 0 && (y as usize) < ny && (x as usize) < nx {
                 for (j, m) in model.iter_mut().enumerate() {
                     m[[y as usize, x as usize]] += best_a[j] * v;
@@ -242,30 +235,21 @@ pub fn run_minor_cycle(
             }
         }
         flux_added += best_a[0];
-        // 3b: residual update for every level q and term i.
-        let y0 = (cy - pcy).max(0) as usize;
-        let y1 = ((cy - pcy + py as isize).min(ny as isize)).max(0) as usize;
-        let x0 = (cx - pcx).max(0) as usize;
-        let x1 = ((cx - pcx + px as isize).min(nx as isize)).max(0) as usize;
-        for q in 0..nl {
-            for i in 0..n {
-                let target = &mut smooth[q * n + i];
-                for (j, &a) in best_a.iter().enumerate() {
-                    let kern = &plan.cross[plan.cross_index(s, q, i + j)];
-                    for y in y0..y1 {
-                        let ky = (y as isize - cy + pcy) as usize;
-                        let kx0 = (x0 as isize - cx + pcx) as usize;
-                        let krow = &kern[ky * px + kx0..ky * px + kx0 + (x1 - x0)];
-                        let trow = &mut target[y * nx + x0..y * nx + x1];
-                        for (t, k) in trow.iter_mut().zip(krow) {
-                            *t -= a * k;
-                        }
-                    }
-                }
-            }
-        }
+        // 3b (residual update for every level q and term i over the PSF's overlap with the
+        // image) fused with steps 1–2 of the next iteration.
+        let component = Component { s, cy, cx, a: &best_a };
+        found = sweep(
+            plan,
+            &levels,
+            &mut smooth,
+            dim,
+            mask_flat.as_deref(),
+            Some(component),
+            patch,
+            &mut cache,
+        );
         iterations += 1;
-        end_peak = peak_of(&smooth);
+        end_peak = found.peak;
         if end_peak > params.divergence_factor * start_peak {
             return Err(DeconvError::MinorCycleDiverged {
                 iteration: iterations,
@@ -281,51 +265,4 @@ pub fn run_minor_cycle(
         }
     }
     Ok(MinorCycleOutcome { iterations, start_peak, end_peak, flux_added, stop })
-}
-
-/// Largest bias² · rᵀ H⁻¹ r over `region` for one scale: (criterion, pixel). The principal
-/// solution itself is only formed for the winner; N = 1 gets its own loop (r² · H⁻¹ · bias²).
-fn search_level(
-    planes: &[Vec<f64>],
-    region: &[usize],
-    hessian: &crate::TermHessian,
-    bias: f64,
-) -> (f64, usize) {
-    let n = planes.len();
-    let b2 = bias * bias;
-    let mut best = (0.0f64, usize::MAX);
-    if n == 1 {
-        let k = b2 * hessian.inverse_get(0, 0);
-        let plane = &planes[0];
-        for &p in region {
-            let r = plane[p];
-            let c = k * r * r;
-            if c > best.0 {
-                best = (c, p);
-            }
-        }
-        return best;
-    }
-    let mut inv = [0.0f64; MAX_TERMS * MAX_TERMS];
-    for i in 0..n {
-        for j in 0..n {
-            inv[i * n + j] = b2 * hessian.inverse_get(i, j);
-        }
-    }
-    let mut r = [0.0f64; MAX_TERMS];
-    for &p in region {
-        for (ri, plane) in r.iter_mut().zip(planes) {
-            *ri = plane[p];
-        }
-        let mut c = 0.0;
-        for i in 0..n {
-            let row = &inv[i * n..i * n + n];
-            let a: f64 = row.iter().zip(&r[..n]).map(|(h, x)| h * x).sum();
-            c += a * r[i];
-        }
-        if c > best.0 {
-            best = (c, p);
-        }
-    }
-    best
 }

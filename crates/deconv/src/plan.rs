@@ -156,6 +156,39 @@ impl MinorCyclePlan {
         &self.levels[self.point_level].hessian
     }
 
+    /// Half-width h (pixels) of the smallest centred (2h + 1)² square of the PSF grid outside
+    /// which every |PSF_0 ⊗ Φ_s ⊗ Φ_q| is at most `sidelobe` times its centre value (the PSF
+    /// patch of [`crate::CleanParams::psf_patch_sidelobe`]). When no square inside the PSF grid
+    /// qualifies, the half-width of the whole grid.
+    pub fn psf_patch_half_width(&self, sidelobe: f64) -> usize {
+        let (py, px) = self.psf_dim;
+        let (cy, cx) = (py / 2, px / 2);
+        let reach = cy.max(cx).max(py - 1 - cy).max(px - 1 - cx);
+        // ring[d]: largest |value| / centre at Chebyshev distance d from the centre.
+        let mut ring = vec![0.0f64; reach + 1];
+        let nl = self.levels.len();
+        for s in 0..nl {
+            for q in s..nl {
+                let kern = &self.cross[self.cross_index(s, q, 0)];
+                let centre = kern[cy * px + cx].abs();
+                for (i, &v) in kern.iter().enumerate() {
+                    let d = (i / px).abs_diff(cy).max((i % px).abs_diff(cx));
+                    let r = if centre > 0.0 { v.abs() / centre } else { f64::INFINITY };
+                    ring[d] = ring[d].max(r);
+                }
+            }
+        }
+        // Smallest h with every ring beyond h at or below the sidelobe level.
+        let mut h = reach;
+        while h > 0 && ring[h] <= sidelobe {
+            h -= 1;
+        }
+        if h == reach && ring[reach] > sidelobe {
+            return reach.max(py).max(px);
+        }
+        h
+    }
+
     /// Scale widths (pixels) of the selectable scales with their Hessians, in the order given.
     pub fn scale_hessians(&self) -> Vec<(f64, &TermHessian)> {
         self.levels.iter().filter(|l| l.selectable).map(|l| (l.width_px, &l.hessian)).collect()
