@@ -5,8 +5,8 @@ use beamfloor_array::Observation;
 use beamfloor_beam::DishBeam;
 use beamfloor_core::{ImageGeometry, SPEED_OF_LIGHT_M_PER_S};
 use beamfloor_imaging::{
-    fitted_conjugate_frequencies, AProjection, AProjectionParams, ConjugateFitParams,
-    ConjugateFrequency, GridderParams, WRange, WTerm,
+    fitted_conjugate_frequencies, kernel_beam_half_width_rad, ConjugateFitParams,
+    ConjugateFrequency, GridderParams, KernelAProjection, KernelAProjectionParams, WRange, WTerm,
 };
 
 use super::RunError;
@@ -79,12 +79,16 @@ pub fn binned_imaging_beam(
     switches.pointing = false;
     let (hx, hy) = geometry.half_field_rad();
     let ref_freq_hz = config.observation.reference_freq_ghz() * 1e9;
+    // The uv-kernels sample the beam over the whole padded grid's field, beyond the image.
+    let kernel_field = kernel_beam_half_width_rad(*geometry).map_err(|source| {
+        RunError::Imaging { strategy: strategy.name.clone(), source }
+    })?;
     let mut params = beam_params(
         &beam_config,
         &switches,
         observation,
         ref_freq_hz,
-        1.1 * hx.hypot(hy),
+        (1.1 * hx.hypot(hy)).max(kernel_field),
         config.experiment.seed,
     )?;
     params.max_freq_hz = params.max_freq_hz.max(max_freq_hz);
@@ -112,7 +116,9 @@ pub fn kernel_max_freq_hz(config: &Config, index: usize, freqs_hz: &[f64]) -> f6
     }
 }
 
-/// The A-projection operator of strategy `index` (gridding `"a"` or `"wideband-a"`).
+/// The A-projection operator of strategy `index` (gridding `"a"` or `"wideband-a"`): uv-domain
+/// kernels tabulated with the strategy's `kernel_oversampling`, one per PA bin, channel and hand
+/// (the exact image-domain operator stays in the imaging crate as the tests' reference).
 pub fn build_a_operator<'b>(
     config: &Config,
     index: usize,
@@ -120,7 +126,7 @@ pub fn build_a_operator<'b>(
     w_range: WRange,
     binned: &'b BinnedBeam,
     freqs_hz: &[f64],
-) -> Result<AProjection<'b, DishBeam>, RunError> {
+) -> Result<KernelAProjection<'b, DishBeam>, RunError> {
     let strategy = &config.strategy[index];
     let name = strategy.name.clone();
     let imaging = |source| RunError::Imaging { strategy: name.clone(), source };
@@ -145,15 +151,16 @@ pub fn build_a_operator<'b>(
         (Gridding::WidebandA, _) => ConjugateFrequency::Reciprocal { ref_freq_hz },
         _ => ConjugateFrequency::Same,
     };
-    let params = AProjectionParams {
+    let params = KernelAProjectionParams {
         gridder: GridderParams { epsilon: config.imaging.accuracy, w_term: WTerm::Stack },
+        oversampling: strategy.kernel_oversampling as usize,
         // The imaging beam is built without per-antenna effects, so antennas are identical by
         // construction; the operator's own check stays on as a guard.
         assume_identical_antennas: false,
         conjugate,
-        ..AProjectionParams::default()
+        ..KernelAProjectionParams::default()
     };
-    AProjection::new(
+    KernelAProjection::new(
         geometry,
         &binned.beam,
         binned.bin_of_time.clone(),
