@@ -69,8 +69,8 @@ pub fn simulate_to_folder(
     beamfloor_report::write_uv_coverage_png(&uv_coverage_png, &vis, &title)?;
     let resolved = config.to_toml_string().unwrap_or_default();
     let resolved_path = out_dir.join("config.resolved.toml");
-    std::fs::write(&resolved_path, resolved)
-        .map_err(|source| SimulateError::Io { path: resolved_path, source })?;
+    // Through a temporary name and a rename, like every other output.
+    beamfloor_report::write_text_file(&resolved_path, &resolved)?;
     let summary = SimulationSummary {
         visibilities_dir,
         uv_coverage_png,

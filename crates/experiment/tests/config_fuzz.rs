@@ -1,10 +1,18 @@
-//! The parser never panics, whatever the text: random bytes, and valid configs mutated by
-//! deleting, duplicating and replacing pieces (which reach deep into the schema and validation).
+//! The parser never panics, whatever the text: random bytes, valid configs mutated line by line
+//! (deleting, duplicating and replacing pieces, which reach deep into the schema and
+//! validation), and valid and bad configs mutated byte by byte (flips, cuts, splices, hostile
+//! tokens). The byte-level test prints how many inputs it tried and what became of them.
 
 use std::path::PathBuf;
 
+use std::collections::BTreeMap;
+use std::panic::{catch_unwind, AssertUnwindSafe};
+
 use beamfloor_experiment::config::parse_config;
+use beamfloor_experiment::run::estimate_memory;
 use proptest::prelude::*;
+use rand::{Rng, SeedableRng};
+use rand_chacha::ChaCha8Rng;
 
 fn seed_texts() -> Vec<String> {
     let root = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("../..");
@@ -100,7 +108,7 @@ fn apply(text: &str, edits: &[Edit]) -> String {
 }
 
 proptest! {
-    #![proptest_config(ProptestConfig { cases: 300, ..ProptestConfig::default() })]
+    #![proptest_config(ProptestConfig { cases: 1000, ..ProptestConfig::default() })]
 
     #[test]
     fn arbitrary_text_never_panics(text in "\\PC{0,200}") {
@@ -121,4 +129,133 @@ proptest! {
             Err(e) => prop_assert!(e.to_string().starts_with("fuzz.toml:"), "{}", e),
         }
     }
+}
+
+/// Tokens spliced into configs by the byte-level mutator.
+const TOKENS: &[&str] = &[
+    "=",
+    "[",
+    "]",
+    "[[",
+    "]]",
+    "\"",
+    "'",
+    "\n",
+    "#",
+    ",",
+    ".",
+    "{",
+    "}",
+    "nan",
+    "-inf",
+    "1e999",
+    "-0",
+    "0x10",
+    "1_000",
+    "\"\"\"",
+    "[[strategy]]\n",
+    "[[sky.source]]\n",
+    "[imaging]\n",
+    "\\u0000",
+    "é",
+    "\u{feff}",
+    "image_size_px = 32768\n",
+    "channels = 4294967295\n",
+    "scales_px = [0, 1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12, 13]\n",
+];
+
+/// One random byte-level damage.
+fn mutate_bytes(bytes: &mut Vec<u8>, rng: &mut ChaCha8Rng) {
+    let len = bytes.len();
+    match rng.random_range(0..7) {
+        0 if len > 0 => {
+            let i = rng.random_range(0..len);
+            bytes[i] ^= 1 << rng.random_range(0..8);
+        }
+        1 if len > 0 => {
+            let a = rng.random_range(0..len);
+            let b = (a + rng.random_range(0..40)).min(len);
+            bytes.drain(a..b);
+        }
+        2 if len > 0 => {
+            let a = rng.random_range(0..len);
+            let b = (a + rng.random_range(0..80)).min(len);
+            let piece = bytes[a..b].to_vec();
+            let at = rng.random_range(0..=bytes.len());
+            bytes.splice(at..at, piece);
+        }
+        3 => {
+            let token = TOKENS[rng.random_range(0..TOKENS.len())].as_bytes();
+            let at = rng.random_range(0..=len);
+            bytes.splice(at..at, token.iter().copied());
+        }
+        4 => bytes.truncate(rng.random_range(0..=len)),
+        5 if len > 0 => {
+            let i = rng.random_range(0..len);
+            bytes[i] = rng.random();
+        }
+        _ => {
+            // Swap two lines.
+            let text = String::from_utf8_lossy(bytes).into_owned();
+            let mut lines: Vec<&str> = text.lines().collect();
+            if lines.len() > 1 {
+                let (i, j) = (rng.random_range(0..lines.len()), rng.random_range(0..lines.len()));
+                lines.swap(i, j);
+            }
+            *bytes = lines.join("\n").into_bytes();
+        }
+    }
+}
+
+#[test]
+fn thousands_of_byte_mutations_never_panic() {
+    const TRIES: usize = 4000;
+    let mut seeds = seed_texts();
+    let bad = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("tests/bad_configs");
+    let mut bad_files: Vec<_> =
+        std::fs::read_dir(&bad).unwrap().map(|e| e.unwrap().path()).collect();
+    bad_files.sort();
+    seeds.extend(bad_files.iter().map(|p| std::fs::read_to_string(p).unwrap()));
+    let mut rng = ChaCha8Rng::seed_from_u64(0xc0f_f022);
+    let (mut accepted, mut rejected, mut panics) = (0usize, 0usize, Vec::new());
+    let mut kinds: BTreeMap<String, usize> = BTreeMap::new();
+    for attempt in 0..TRIES {
+        let mut bytes = seeds[rng.random_range(0..seeds.len())].clone().into_bytes();
+        for _ in 0..rng.random_range(1..5) {
+            mutate_bytes(&mut bytes, &mut rng);
+        }
+        let text = String::from_utf8_lossy(&bytes).into_owned();
+        let outcome = catch_unwind(AssertUnwindSafe(|| {
+            parse_config(&text, "fuzz.toml").map(|config| {
+                // The memory estimate takes any accepted config, however large.
+                let m = estimate_memory(&config, config.array.layout.antenna_count(), 2);
+                (config, m.total_bytes)
+            })
+        }));
+        match outcome {
+            Ok(Ok(_)) => accepted += 1,
+            Ok(Err(e)) => {
+                rejected += 1;
+                let message = e.to_string();
+                assert!(
+                    message.starts_with("fuzz.toml:"),
+                    "attempt {attempt}: unlocated: {message}"
+                );
+                for p in e.problems() {
+                    let kind =
+                        format!("{p:?}").split([' ', '{', '(']).next().unwrap_or("").to_string();
+                    *kinds.entry(kind).or_default() += 1;
+                }
+            }
+            Err(_) => panics.push(attempt),
+        }
+    }
+    println!(
+        "config parser: {TRIES} byte-mutated inputs tried ({} seed files), {accepted} accepted, {rejected} rejected with located errors, {} panics",
+        seeds.len(),
+        panics.len()
+    );
+    println!("problems by kind: {kinds:?}");
+    assert!(panics.is_empty(), "panics at attempts {panics:?}");
+    assert!(kinds.len() >= 5 && accepted > 0, "{kinds:?}, {accepted} accepted");
 }

@@ -15,6 +15,10 @@ use std::ops::Range;
 
 const ZERO: Complex64 = Complex64 { re: 0.0, im: 0.0 };
 
+/// Row blocks of one gridding pass: fixed, so that results do not depend on the thread count
+/// (see `grid`); enough to keep eight cores busy.
+const GRID_BLOCKS: usize = 8;
+
 /// Kernel taps and grid indices of one sample (scratch reused across samples). When the
 /// footprint does not cross the padded grid's edge (`contiguous`), rows start at `y0 · pad_nx +
 /// x0` and the W cells of each row are one slice; otherwise `ix`/`iy` hold wrapped indices.
@@ -291,23 +295,35 @@ impl ImagingOperator for GridPlan {
         let (nx, ny) = (self.geometry.nx, self.geometry.ny);
         let mut images = vec![Array2::<f64>::zeros((ny, nx)); outputs.len()];
         let n_rows = vis.n_rows();
-        let n_tasks = rayon::current_num_threads().max(1);
-        let per_task = n_rows.div_ceil(n_tasks).max(1);
+        // The rows are cut into GRID_BLOCKS blocks whatever the thread count, each block is
+        // spread into a private grid set (no locks), and the sets are added in block order; a
+        // wave of as many blocks as threads runs at a time. The floating-point sums, and so the
+        // images, are then the same bit for bit with any number of threads.
+        let n_blocks = GRID_BLOCKS.min(n_rows).max(1);
+        let per_block = n_rows.div_ceil(n_blocks).max(1);
+        let wave = rayon::current_num_threads().max(1);
         let mut scratch = vec![ZERO; self.pad_nx * self.pad_ny];
         for p in 0..self.n_w_planes() {
-            // One private grid set per task (no locks), summed afterwards.
-            let partial = (0..n_tasks)
-                .into_par_iter()
-                .filter_map(|k| {
-                    let rows = (k * per_task).min(n_rows)..((k + 1) * per_task).min(n_rows);
-                    self.spread(vis, rows, p, sources, outputs)
-                })
-                .reduce_with(|mut a, b| {
-                    for (ga, gb) in a.iter_mut().zip(&b) {
-                        ga.par_iter_mut().zip(gb.par_iter()).for_each(|(x, y)| *x += *y);
+            let mut partial: Option<Vec<Vec<Complex64>>> = None;
+            for first in (0..n_blocks).step_by(wave) {
+                let sets: Vec<Option<Vec<Vec<Complex64>>>> = (first..(first + wave).min(n_blocks))
+                    .into_par_iter()
+                    .map(|k| {
+                        let rows = (k * per_block).min(n_rows)..((k + 1) * per_block).min(n_rows);
+                        self.spread(vis, rows, p, sources, outputs)
+                    })
+                    .collect();
+                for set in sets.into_iter().flatten() {
+                    match &mut partial {
+                        None => partial = Some(set),
+                        Some(sum) => {
+                            for (ga, gb) in sum.iter_mut().zip(&set) {
+                                ga.par_iter_mut().zip(gb.par_iter()).for_each(|(x, y)| *x += *y);
+                            }
+                        }
                     }
-                    a
-                });
+                }
+            }
             let Some(mut grids) = partial else { continue };
             let screen = self.screen(p, 1.0);
             for (grid, image) in grids.iter_mut().zip(images.iter_mut()) {

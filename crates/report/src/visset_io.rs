@@ -1,12 +1,13 @@
 //! Visibility sets on disk: one `.npy` file per array plus `manifest.json`, in one folder.
 
 use std::collections::BTreeMap;
+use std::f64::consts::FRAC_PI_2;
 use std::fs::File;
 use std::io::{BufReader, Seek};
 use std::path::{Path, PathBuf};
 
 use beamfloor_core::Correlation;
-use beamfloor_predict::VisSet;
+use beamfloor_predict::{VisSet, VisSetError};
 use ndarray::{Array, ArrayView1, Dimension};
 use ndarray_npy::{read_npy, write_npy, ReadableElement, WritableElement};
 
@@ -172,7 +173,44 @@ pub fn read_visset(dir: &Path) -> Result<VisSet, ReportError> {
         truth_hash: m.truth_hash.clone(),
     };
     vis.validate().map_err(|source| ReportError::InvalidVisSet { path: dir.into(), source })?;
+    check_finite(&vis).map_err(|source| ReportError::InvalidVisSet { path: dir.into(), source })?;
     Ok(vis)
+}
+
+/// Values `VisSet::validate` leaves to the producer but a set read from disk must not hold: a
+/// non-finite unflagged visibility, hour angle, parallactic angle or phase centre (a flagged
+/// sample may hold anything, it is never used).
+fn check_finite(vis: &VisSet) -> Result<(), VisSetError> {
+    let bad = |field, value: String, why| Err(VisSetError::Value { field, value, why });
+    for (field, values) in [
+        ("hour_angles_rad", &vis.hour_angles_rad),
+        ("parallactic_angles_rad", &vis.parallactic_angles_rad),
+    ] {
+        if let Some((i, v)) = values.iter().enumerate().find(|(_, v)| !v.is_finite()) {
+            return bad(field, format!("{v} at index {i}"), "angles must be finite");
+        }
+    }
+    let centre = [vis.phase_centre_ra_rad, vis.phase_centre_dec_rad];
+    if centre.iter().any(|v| !v.is_finite()) || vis.phase_centre_dec_rad.abs() > FRAC_PI_2 {
+        return bad(
+            "phase_centre",
+            format!("({}, {})", centre[0], centre[1]),
+            "the phase centre must be finite with |dec| ≤ π/2",
+        );
+    }
+    let unflagged_bad = vis
+        .data
+        .indexed_iter()
+        .zip(vis.flags.iter())
+        .find(|((_, v), &flag)| !flag && !(v.re.is_finite() && v.im.is_finite()));
+    if let Some((((r, c, p), v), _)) = unflagged_bad {
+        return bad(
+            "data",
+            format!("{v} at row {r}, channel {c}, correlation {p}"),
+            "unflagged visibilities must be finite (flag the sample instead)",
+        );
+    }
+    Ok(())
 }
 
 fn parse_manifest(mpath: &Path, text: &str) -> Result<Manifest, ReportError> {
@@ -279,8 +317,13 @@ where
         });
     }
     let item = item_size(&entry.dtype).unwrap_or(1);
-    let count: u64 = entry.shape.iter().map(|&n| n as u64).product();
-    let expected_bytes = header_len + count * item;
+    // A corrupt shape may claim more elements than a u64 counts: that can never match the file.
+    let expected_bytes = entry
+        .shape
+        .iter()
+        .try_fold(item, |acc, &n| acc.checked_mul(n as u64))
+        .and_then(|data| data.checked_add(header_len))
+        .unwrap_or(u64::MAX);
     if file_len != expected_bytes {
         return Err(ReportError::WrongFileSize { path, expected_bytes, found_bytes: file_len });
     }

@@ -12,6 +12,26 @@ pub enum RunError {
     /// The config could not be mapped onto the compute crates (bad input).
     #[error(transparent)]
     Scenario(#[from] ScenarioError),
+    /// The config breaks a physical-sanity rule or would not fit in memory (bad input; found by
+    /// [`crate::run::preflight`] before any heavy work).
+    #[error(transparent)]
+    Config(#[from] crate::config::ConfigError),
+    /// The run folder holds a different experiment (its config hash differs); it is not
+    /// overwritten unless asked (`beamfloor run --force`, [`crate::run::clear_run_folder`]).
+    #[error(
+        "{}: holds {state} with config hash {}…, not this config's {}…: it is not overwritten; choose another output folder, or rerun with --force to replace that run",
+        path.display(), &found_hash[..found_hash.len().min(12)], &expected_hash[..expected_hash.len().min(12)]
+    )]
+    ForeignRunFolder {
+        /// The run folder.
+        path: PathBuf,
+        /// The config hash found in the folder's markers or manifest.
+        found_hash: String,
+        /// This config's hash.
+        expected_hash: String,
+        /// What the folder holds, in words.
+        state: String,
+    },
     /// A strategy asks for something this version cannot carry out (bad input).
     #[error("strategy[{index}] \"{strategy}\": {key} = {value}: {why}")]
     Unsupported {
@@ -80,6 +100,22 @@ pub enum RunError {
         #[source]
         source: beamfloor_metrics::MetricsError,
     },
+    /// A grid product, image or kernel response holds NaN or an infinity.
+    #[error("strategy \"{strategy}\": {stage}: Taylor term {term} holds {value} at pixel ({x}, {y}); the run stops here")]
+    NonFinite {
+        /// The strategy's name.
+        strategy: String,
+        /// Which stage and image.
+        stage: String,
+        /// Taylor term (or PSF order) of the image.
+        term: usize,
+        /// Pixel x.
+        x: usize,
+        /// Pixel y.
+        y: usize,
+        /// The value found.
+        value: f64,
+    },
     /// The predicted image noise could not be computed.
     #[error("image noise: {0}")]
     Noise(#[from] beamfloor_predict::PredictError),
@@ -101,6 +137,12 @@ impl RunError {
     /// True when the user's input (config, scenario, strategy choice) is at fault rather than
     /// the run (exit code 2 instead of 1 in the command-line tool).
     pub fn is_bad_input(&self) -> bool {
-        matches!(self, RunError::Scenario(_) | RunError::Unsupported { .. })
+        matches!(
+            self,
+            RunError::Scenario(_)
+                | RunError::Unsupported { .. }
+                | RunError::Config(_)
+                | RunError::ForeignRunFolder { .. }
+        )
     }
 }

@@ -133,6 +133,11 @@ pub fn image_strategy(
     for p in psfs.iter_mut() {
         *p /= sum_weights;
     }
+    super::guards::check_finite(&name, "spectral PSFs (weights through the kernel)", &psfs)?;
+    if let Some(w) = &sensitivity {
+        let stage = "A-projection sensitivity image";
+        super::guards::check_finite(&name, stage, std::slice::from_ref(w))?;
+    }
     let beam = fit_restoring_beam(&psfs[0], geometry.cell_rad, &BeamFitParams::default())
         .map_err(deconv)?;
     let scales = ScaleSet::gaussian(&strategy.scales_px);
@@ -154,11 +159,13 @@ pub fn image_strategy(
     if let Some(g) = &flat_noise_factor {
         imager = imager.with_normalisation(g.clone());
     }
+    let mut imager = super::guards::GuardedResiduals::new(imager);
     let result =
         run_major_cycles(&mut imager, &geometry, &plan, &params, None, progress).map_err(deconv)?;
     let restored =
         restore(&result.model, &result.residuals, plan.point_hessian(), &beam, geometry.cell_rad)
             .map_err(deconv)?;
+    super::guards::check_finite(&name, "restored Taylor images (apparent)", &restored.images)?;
 
     // Plain and w gridding image the apparent sky; divide by the averaged beam's Taylor terms.
     let corrects_beam = matches!(strategy.gridding, Gridding::Plain | Gridding::W);

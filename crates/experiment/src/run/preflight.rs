@@ -1,0 +1,557 @@
+//! Preflight: the physical sanity of a valid config, checked against the observation it
+//! describes before anything heavy runs, and the memory the run will need against the memory
+//! this machine has.
+//!
+//! The checks, in order (each failure is a located config error naming the key to change, its
+//! value and what would be valid):
+//! 1. Memory: visibilities, imaging grids, images, PSFs and A-screens (see [`MemoryEstimate`])
+//!    against `MemAvailable` of `/proc/meminfo`, from the config's counts alone, so that a run
+//!    that cannot fit is refused before even the observation's rows are built.
+//! 2. The track: at least one time sample must have the phase centre above the elevation limit.
+//! 3. The cell against the longest projected baseline at the top of the band (Nyquist):
+//!    Δθ ≤ 1 / (2 u_max) (Thompson, Moran & Swenson, §5.2: the image is the Fourier transform of
+//!    a band-limited uv-plane; a cell above the bound folds the outer baselines over).
+//! 4. The gridding kernel's footprint around the longest baseline against the padded grid:
+//!    u_max Δθ + W / (2 N_pad) ≤ 1/2, with W the kernel support for `imaging.accuracy` and
+//!    N_pad the padded grid (the smallest 2^a 3^b 5^c ≥ 2 N, as the imaging crate plans it);
+//!    beyond it the kernel's taps wrap to the opposite side of the uv-plane.
+//! 5. Every source inside the image, at least a margin of max(3 synthesized beams, 8 pixels)
+//!    from its edge (a Gaussian's FWHM added), so that CLEAN sees it and the PSF patch around it
+//!    is not cut by the image edge.
+
+use std::fmt::Write;
+use std::path::Path;
+
+use beamfloor_array::{ArrayError, Observation};
+use beamfloor_imaging::{AProjectionParams, EsKernel, UPSAMPLING};
+use beamfloor_sky::Shape;
+
+use super::RunError;
+use crate::config::{locate_problems, Config, Gridding, Layout, Problem, SourcePosition};
+use crate::scenario::{Scenario, ScenarioError};
+
+const ARCSEC_PER_RAD: f64 = 180.0 * 3600.0 / std::f64::consts::PI;
+const ARCMIN_PER_RAD: f64 = ARCSEC_PER_RAD / 60.0;
+const GIB: f64 = 1024.0 * 1024.0 * 1024.0;
+/// Synthesized beams of margin between a source and the image edge.
+const EDGE_MARGIN_BEAMS: f64 = 3.0;
+/// Pixels of margin between a source and the image edge, at least.
+const EDGE_MARGIN_PIXELS: f64 = 8.0;
+
+/// What a run will hold in memory at its peak, bytes, by part.
+///
+/// Model (from how the runner and the imaging crate allocate): the visibility set (complex128
+/// data, f64 weight, bool flag per sample and hand; uvw and indices per row) plus the runner's
+/// working copies per sample — the imaging weights (f64), the weighted PSF values (complex128)
+/// and the residual visibilities of a major cycle (two complex128); then, for the strategy that
+/// needs most (strategies run one after another): one padded complex grid per gridded output per
+/// rayon thread (the spectral PSFs, 2N − 1 outputs on a grid padded from twice the image size,
+/// are the largest pass), the PSFs and their scale-convolved copies for the minor cycle
+/// (L(L+1)/2 · (2N − 1) PSF-sized images for L scales), the Taylor images (model, residual,
+/// restored, primary-beam corrected, spectral maps, truth and error images), and for
+/// A-projection the cached A-screens (one f64 image per PA bin, channel and hand, twice for
+/// wideband; the imaging crate caps the cache).
+#[derive(Debug, Clone, PartialEq)]
+pub struct MemoryEstimate {
+    /// Rows (baselines × time samples), channels, and hands per sample.
+    pub rows: u64,
+    /// Channels.
+    pub channels: u64,
+    /// Visibility set and the runner's per-sample working copies, bytes.
+    pub visibilities_bytes: u64,
+    /// Per strategy: name, grids, images (incl. PSFs), A-screens, bytes.
+    pub strategies: Vec<StrategyMemory>,
+    /// Visibilities plus the largest strategy, bytes.
+    pub total_bytes: u64,
+    /// Rayon threads the grids are counted for.
+    pub threads: usize,
+}
+
+/// The imaging memory of one strategy, bytes.
+#[derive(Debug, Clone, PartialEq)]
+pub struct StrategyMemory {
+    /// The strategy's name.
+    pub name: String,
+    /// Padded complex grids (one per output per thread, largest pass).
+    pub grids_bytes: u64,
+    /// PSFs, their scale-convolved copies, and the Taylor images.
+    pub images_bytes: u64,
+    /// A-projection screen cache (0 for plain and w).
+    pub screens_bytes: u64,
+}
+
+impl StrategyMemory {
+    /// Everything this strategy holds.
+    pub fn total_bytes(&self) -> u64 {
+        self.grids_bytes.saturating_add(self.images_bytes).saturating_add(self.screens_bytes)
+    }
+}
+
+/// The numbers a preflight found, for `beamfloor check` and the run's log.
+#[derive(Debug, Clone)]
+pub struct PreflightReport {
+    /// Longest projected baseline of any unflagged sample at the top channel, wavelengths.
+    pub max_uv_wavelengths: f64,
+    /// The largest cell the longest baseline allows (Nyquist), arcsec.
+    pub nyquist_cell_arcsec: f64,
+    /// Pixels across the synthesized beam (≈ 1 / u_max) at the configured cell.
+    pub pixels_per_beam: f64,
+    /// Time samples above the elevation limit, of all.
+    pub unflagged_times: (usize, usize),
+    /// The memory estimate.
+    pub memory: MemoryEstimate,
+    /// `MemAvailable` of this machine, bytes (None where it cannot be read).
+    pub available_memory_bytes: Option<u64>,
+}
+
+impl PreflightReport {
+    /// A few lines for a terminal.
+    pub fn describe(&self) -> String {
+        let mut s = String::new();
+        let m = &self.memory;
+        let _ = writeln!(
+            s,
+            "sampling     longest baseline {:.3} kλ at the top channel: cells ≤ {:.3}″ (Nyquist); the synthesized beam is {:.1} pixels across",
+            self.max_uv_wavelengths / 1e3,
+            self.nyquist_cell_arcsec,
+            self.pixels_per_beam
+        );
+        let _ = writeln!(
+            s,
+            "track        {} of {} time samples above the elevation limit",
+            self.unflagged_times.0, self.unflagged_times.1
+        );
+        let _ = writeln!(
+            s,
+            "memory       about {:.2} GiB at peak ({:.2} GiB visibilities and working copies; largest strategy {:.2} GiB; grids counted for {} threads){}",
+            m.total_bytes as f64 / GIB,
+            m.visibilities_bytes as f64 / GIB,
+            m.strategies.iter().map(StrategyMemory::total_bytes).max().unwrap_or(0) as f64 / GIB,
+            m.threads,
+            match self.available_memory_bytes {
+                Some(a) => format!(", {:.2} GiB available", a as f64 / GIB),
+                None => String::new(),
+            }
+        );
+        s
+    }
+}
+
+/// A checked scenario: the config mapped onto the compute crates, and what the checks found.
+pub struct Preflight {
+    /// The scenario, ready to simulate.
+    pub scenario: Scenario,
+    /// The numbers behind the checks.
+    pub report: PreflightReport,
+}
+
+/// Runs every preflight check of the module doc against this machine's available memory, and
+/// returns the scenario it built on the way. Problems are [`RunError::Config`] (bad input),
+/// located in the file at `config_path` (or, without one, in the resolved config's text).
+pub fn preflight(config: &Config, config_path: Option<&Path>) -> Result<Preflight, RunError> {
+    preflight_with_memory(config, config_path, available_memory_bytes())
+}
+
+/// [`preflight`] against `available_bytes` of memory (None: no memory check).
+pub fn preflight_with_memory(
+    config: &Config,
+    config_path: Option<&Path>,
+    available_bytes: Option<u64>,
+) -> Result<Preflight, RunError> {
+    let threads = rayon::current_num_threads();
+    let antennas = antenna_count(config, config_path);
+    let memory = estimate_memory(config, antennas, threads);
+    if let Some(available) = available_bytes {
+        if memory.total_bytes > available {
+            return Err(located(
+                config,
+                config_path,
+                &[memory_problem(config, &memory, available)],
+            ));
+        }
+    }
+    let scenario = match Scenario::build(config, config_path) {
+        Ok(s) => s,
+        Err(ScenarioError::Array {
+            source: e @ ArrayError::AllSamplesBelowLimit { .. }, ..
+        }) => {
+            return Err(located(config, config_path, &[track_problem(config, &e)]));
+        }
+        Err(e) => return Err(e.into()),
+    };
+    let observation = &scenario.observation;
+    let mut problems = Vec::new();
+    let u_max = observation.max_uv_distance_wavelengths();
+    let cell_rad = (config.imaging.cell_arcsec / 3600.0).to_radians();
+    let nyquist_rad = if u_max > 0.0 { 0.5 / u_max } else { f64::INFINITY };
+    if cell_rad > nyquist_rad {
+        problems.push(nyquist_problem(config, observation, u_max, cell_rad));
+    } else if let Some(p) = kernel_problem(config, u_max, cell_rad) {
+        problems.push(p);
+    }
+    problems.extend(source_problems(config, &scenario, u_max, cell_rad));
+    locate(config, config_path, &problems)?;
+    let report = PreflightReport {
+        max_uv_wavelengths: u_max,
+        nyquist_cell_arcsec: nyquist_rad * ARCSEC_PER_RAD,
+        pixels_per_beam: if u_max > 0.0 { 1.0 / (u_max * cell_rad) } else { f64::INFINITY },
+        unflagged_times: (observation.timeline.n_unflagged(), observation.n_times()),
+        memory,
+        available_memory_bytes: available_bytes,
+    };
+    Ok(Preflight { scenario, report })
+}
+
+/// `MemAvailable` of `/proc/meminfo`, bytes: the memory the kernel can give a new process
+/// without swapping. None where the file does not exist (not Linux) or lacks the line.
+pub fn available_memory_bytes() -> Option<u64> {
+    let text = std::fs::read_to_string("/proc/meminfo").ok()?;
+    let line = text.lines().find(|l| l.starts_with("MemAvailable:"))?;
+    let kib: u64 = line.split_whitespace().nth(1)?.parse().ok()?;
+    kib.checked_mul(1024)
+}
+
+/// The memory a run of `config` needs (see [`MemoryEstimate`]), from the config's counts alone;
+/// `antennas` is None when a layout file cannot be read (counted as 0 antennas).
+pub fn estimate_memory(config: &Config, antennas: Option<u64>, threads: usize) -> MemoryEstimate {
+    let a = antennas.unwrap_or(0);
+    let times = config.observation.time_samples();
+    let channels = u64::from(config.observation.channels);
+    let rows = (a.saturating_mul(a.saturating_sub(1)) / 2).saturating_mul(times);
+    let samples = rows.saturating_mul(channels).saturating_mul(2);
+    // Set: 16 + 8 + 1 bytes per sample, uvw (3 f64) and three u32 indices per row. Working
+    // copies: weights 8, PSF values 16, residual and predicted visibilities 2 × 16 per sample.
+    let visibilities_bytes = samples
+        .saturating_mul(25 + 8 + 16 + 32)
+        .saturating_add(rows.saturating_mul(3 * 8 + 3 * 4 + 48));
+    // Products of counts can pass 2^64 for absurd configs: count in f64, which saturates to
+    // u64::MAX on the way back instead of wrapping.
+    let n = f64::from(config.imaging.image_size_px);
+    let pad = smooth_size((UPSAMPLING * n).ceil() as u64) as f64;
+    let pad_psf = smooth_size((UPSAMPLING * 2.0 * n).ceil() as u64) as f64;
+    let t = threads.max(1) as f64;
+    let strategies = config
+        .strategy
+        .iter()
+        .map(|s| {
+            let terms = f64::from(s.taylor_terms());
+            let psfs = 2.0 * terms - 1.0;
+            let grids = (t * psfs * 16.0 * pad_psf * pad_psf).max(t * terms * 16.0 * pad * pad);
+            let scales =
+                s.scales_px.len().max(1) as f64 + f64::from(u8::from(!s.scales_px.contains(&0.0)));
+            let psf_images = (1.0 + scales * (scales + 1.0) / 2.0) * psfs * 4.0 * n * n * 8.0;
+            let taylor_images = (8.0 * terms + 8.0) * n * n * 8.0;
+            let screens = match s.gridding {
+                Gridding::A | Gridding::WidebandA => {
+                    let bins = parallactic_bins_upper_bound(config, s.pa_bin_deg) as f64;
+                    let sets = if s.gridding == Gridding::WidebandA { 2.0 } else { 1.0 };
+                    // As the imaging crate's `screen_cache_bytes`: one f64 image per bin, channel, hand.
+                    let needed = n * n * 8.0 * bins * channels as f64 * 2.0 * sets;
+                    needed.min(AProjectionParams::default().max_cache_bytes as f64)
+                }
+                _ => 0.0,
+            };
+            StrategyMemory {
+                name: s.name.clone(),
+                grids_bytes: grids as u64,
+                images_bytes: (psf_images + taylor_images) as u64,
+                screens_bytes: screens as u64,
+            }
+        })
+        .collect::<Vec<_>>();
+    let largest = strategies.iter().map(StrategyMemory::total_bytes).max().unwrap_or(0);
+    MemoryEstimate {
+        rows,
+        channels,
+        visibilities_bytes,
+        total_bytes: visibilities_bytes.saturating_add(largest),
+        strategies,
+        threads,
+    }
+}
+
+/// An upper bound on the parallactic-angle bins of a track: its PA range can be no more than a
+/// half turn per 12 h of hour angle near the zenith; bins of `bin_deg` over at most 360°.
+fn parallactic_bins_upper_bound(config: &Config, bin_deg: f64) -> u64 {
+    let o = &config.observation;
+    let span_deg = ((o.hour_angle_end_h - o.hour_angle_start_h) * 30.0).clamp(0.0, 360.0);
+    let bins = (span_deg / bin_deg.max(1e-3)).ceil() as u64 + 1;
+    bins.min(config.observation.time_samples().max(1))
+}
+
+/// The smallest 2^a 3^b 5^c ≥ n (the FFT sizes the imaging crate pads to).
+fn smooth_size(n: u64) -> u64 {
+    let mut m = n.max(1);
+    loop {
+        let mut r = m;
+        for p in [2, 3, 5] {
+            while r % p == 0 {
+                r /= p;
+            }
+        }
+        if r == 1 {
+            return m;
+        }
+        m += 1;
+    }
+}
+
+/// Antennas of the layout: from the generator's settings, or the data lines of a layout file
+/// (None when it cannot be read; the scenario then reports the file).
+fn antenna_count(config: &Config, config_path: Option<&Path>) -> Option<u64> {
+    if let Some(n) = config.array.layout.antenna_count() {
+        return Some(n);
+    }
+    let Layout::File(file) = &config.array.layout else { return None };
+    let path = match config_path {
+        Some(c) => crate::config::resolve_relative(c, file),
+        None => file.clone(),
+    };
+    let text = std::fs::read_to_string(path).ok()?;
+    let lines = text.lines().filter(|l| !l.split('#').next().unwrap_or("").trim().is_empty());
+    Some(lines.count() as u64)
+}
+
+/// The error for `problems`, which must not be empty.
+fn located(config: &Config, config_path: Option<&Path>, problems: &[Problem]) -> RunError {
+    match locate(config, config_path, problems) {
+        Err(e) => e,
+        // Unreachable for a non-empty list; say what was refused rather than panic.
+        Ok(()) => RunError::Config(crate::config::ConfigError::Several(Vec::new())),
+    }
+}
+
+/// Locates `problems` in the config file's text, or in the resolved config's text.
+fn locate(
+    config: &Config,
+    config_path: Option<&Path>,
+    problems: &[Problem],
+) -> Result<(), RunError> {
+    if problems.is_empty() {
+        return Ok(());
+    }
+    let from_file = config_path
+        .and_then(|p| std::fs::read_to_string(p).ok().map(|text| (p.display().to_string(), text)));
+    let (origin, text) = from_file.unwrap_or_else(|| {
+        ("resolved config".to_string(), config.to_toml_string().unwrap_or_default())
+    });
+    locate_problems(&origin, &text, problems).map_err(RunError::Config)
+}
+
+fn problem(key_path: impl Into<String>, value: impl ToString, allowed: String) -> Problem {
+    Problem { key_path: key_path.into(), value: value.to_string(), allowed }
+}
+
+fn memory_problem(config: &Config, m: &MemoryEstimate, available: u64) -> Problem {
+    let largest = m.strategies.iter().max_by_key(|s| s.total_bytes());
+    let gib = |b: u64| b as f64 / GIB;
+    let mut parts = format!(
+        "visibilities {:.2} GiB ({} rows × {} channels × 2 hands, with working copies)",
+        gib(m.visibilities_bytes),
+        m.rows,
+        m.channels
+    );
+    if let Some(s) = largest {
+        let _ = write!(
+            parts,
+            "; strategy \"{}\" {:.2} GiB (grids {:.2} for {} threads, images and PSFs {:.2}, A-screens {:.2})",
+            s.name,
+            gib(s.total_bytes()),
+            gib(s.grids_bytes),
+            m.threads,
+            gib(s.images_bytes),
+            gib(s.screens_bytes)
+        );
+    }
+    let imaging_dominates = largest.is_some_and(|s| s.total_bytes() >= m.visibilities_bytes);
+    let (key, value, reduce) = if imaging_dominates {
+        (
+            "imaging.image_size_px",
+            config.imaging.image_size_px.to_string(),
+            "a smaller imaging.image_size_px (memory grows as its square), fewer Taylor terms or scales_px, or a wider pa_bin_deg",
+        )
+    } else {
+        (
+            "observation.integration_s",
+            config.observation.integration_s.to_string(),
+            "a longer observation.integration_s, fewer observation.channels or antennas, or a shorter track",
+        )
+    };
+    problem(
+        key,
+        value,
+        format!(
+            "the run would need about {:.2} GiB ({parts}) but this machine has {:.2} GiB available (MemAvailable): reduce it with {reduce}",
+            gib(m.total_bytes),
+            gib(available)
+        ),
+    )
+}
+
+fn track_problem(config: &Config, e: &ArrayError) -> Problem {
+    let o = &config.observation;
+    let (phi, dec) = (config.array.latitude_deg.to_radians(), o.dec_deg.to_radians());
+    // Elevation e at hour angle H: sin e = sin φ sin δ + cos φ cos δ cos H (Thompson, Moran &
+    // Swenson, ch. 4); above the limit for |H| < H0 with cos H0 = (sin e_lim − sin φ sin δ) /
+    // (cos φ cos δ).
+    let cos_h0 = (o.elevation_limit_deg.to_radians().sin() - phi.sin() * dec.sin())
+        / (phi.cos() * dec.cos());
+    let window = if cos_h0 <= -1.0 {
+        "at every hour angle".to_string()
+    } else {
+        format!(
+            "only for hour angles within ±{:.2} h",
+            cos_h0.clamp(-1.0, 1.0).acos().to_degrees() / 15.0
+        )
+    };
+    let highest = match e {
+        ArrayError::AllSamplesBelowLimit { max_sample_elevation_rad, .. } => {
+            format!(" (the highest reaches {:.1} deg)", max_sample_elevation_rad.to_degrees())
+        }
+        _ => String::new(),
+    };
+    problem(
+        "observation.hour_angle_start_h",
+        o.hour_angle_start_h,
+        format!(
+            "every time sample of the track from hour angle {} h to {} h (one per {} s, at its centre) is below observation.elevation_limit_deg = {}{highest}, so every sample would be flagged; at latitude {} deg the phase centre (dec {} deg) is above the limit {window}: move the track there",
+            o.hour_angle_start_h,
+            o.hour_angle_end_h,
+            o.integration_s,
+            o.elevation_limit_deg,
+            config.array.latitude_deg,
+            o.dec_deg
+        ),
+    )
+}
+
+fn nyquist_problem(
+    config: &Config,
+    observation: &Observation,
+    u_max: f64,
+    cell_rad: f64,
+) -> Problem {
+    let beam_arcsec = ARCSEC_PER_RAD / u_max;
+    problem(
+        "imaging.cell_arcsec",
+        config.imaging.cell_arcsec,
+        format!(
+            "undersamples the longest projected baseline, {:.3} kλ at {:.4} GHz (the top channel): the synthesized beam (≈ 1/u_max = {beam_arcsec:.2}″) would be only {:.2} pixels across; need cell_arcsec ≤ {:.3} (Nyquist, 1/(2 u_max)); 3 to 5 pixels across the beam is common practice",
+            u_max / 1e3,
+            observation.channels.highest_hz() / 1e9,
+            1.0 / (u_max * cell_rad),
+            0.5 * beam_arcsec
+        ),
+    )
+}
+
+fn kernel_problem(config: &Config, u_max: f64, cell_rad: f64) -> Option<Problem> {
+    let kernel = EsKernel::for_epsilon(config.imaging.accuracy).ok()?;
+    let w = kernel.support() as f64;
+    let n = u64::from(config.imaging.image_size_px);
+    let pad = smooth_size((UPSAMPLING * n as f64).ceil() as u64) as f64;
+    // In cells of the padded grid, the longest baseline sits at u_max Δθ N_pad from the centre
+    // and its kernel reaches W/2 further; the grid's edge is N_pad / 2 away.
+    let reach = u_max * cell_rad * pad + 0.5 * w;
+    if reach <= 0.5 * pad {
+        return None;
+    }
+    let fraction = u_max * cell_rad;
+    let min_pad = w / (1.0 - 2.0 * fraction);
+    let min_n = ((min_pad / UPSAMPLING / 2.0).ceil() as u64 * 2).max(16);
+    let max_cell = (0.5 - 0.5 * w / pad) / u_max * ARCSEC_PER_RAD;
+    Some(problem(
+        "imaging.image_size_px",
+        n,
+        format!(
+            "the gridding kernel ({w} cells wide for imaging.accuracy = {}) around the longest baseline reaches {reach:.1} cells from the centre of the {pad}-cell padded grid, beyond its edge at {}: its taps would wrap to the opposite side of the uv-plane; need image_size_px ≥ {min_n}, or cell_arcsec ≤ {max_cell:.3}, or a coarser imaging.accuracy",
+            config.imaging.accuracy,
+            0.5 * pad
+        ),
+    ))
+}
+
+fn source_problems(
+    config: &Config,
+    scenario: &Scenario,
+    u_max: f64,
+    cell_rad: f64,
+) -> Vec<Problem> {
+    let n = f64::from(config.imaging.image_size_px);
+    // Pixel x runs from 0 to N − 1 with the centre at N/2: the field reaches (N/2 − 1) cells
+    // on one side and N/2 on the other; the shorter side counts.
+    let half = (0.5 * n - 1.0) * cell_rad;
+    let beam = if u_max > 0.0 { 1.0 / u_max } else { 0.0 };
+    let margin = (EDGE_MARGIN_BEAMS * beam).max(EDGE_MARGIN_PIXELS * cell_rad);
+    let usable = half - margin;
+    let mut problems = Vec::new();
+    for (i, (component, source)) in scenario.sky.iter().zip(&config.sky.source).enumerate() {
+        let extent = match &component.shape {
+            Shape::Gaussian(g) => g.major_fwhm_rad,
+            Shape::Point => 0.0,
+        };
+        let reach = component.l.abs().max(component.m.abs()) + extent;
+        if reach <= usable {
+            continue;
+        }
+        let key = match source.position {
+            SourcePosition::Lm { l_arcmin, m_arcmin } => {
+                if l_arcmin.abs() >= m_arcmin.abs() {
+                    "l_arcmin"
+                } else {
+                    "m_arcmin"
+                }
+            }
+            SourcePosition::RaDecOffset { .. } => "ra_offset_arcmin",
+            SourcePosition::Radius { .. } => "radius_arcmin",
+            SourcePosition::BeamPower { .. } => "beam_power",
+        };
+        let value = match source.position {
+            SourcePosition::Lm { l_arcmin, m_arcmin } => {
+                if key == "l_arcmin" {
+                    l_arcmin
+                } else {
+                    m_arcmin
+                }
+            }
+            SourcePosition::RaDecOffset { ra_offset_arcmin, .. } => ra_offset_arcmin,
+            SourcePosition::Radius { radius_arcmin, .. } => radius_arcmin,
+            SourcePosition::BeamPower { beam_power, .. } => beam_power,
+        };
+        // The image size that would hold it: N/2 − 1 cells ≥ reach + margin, N even.
+        let need = ((reach + margin) / cell_rad + 1.0).ceil() as u64 * 2;
+        problems.push(problem(
+            format!("sky.source[{i}].{key}"),
+            value,
+            format!(
+                "source `{}` at (l, m) = ({:.2}′, {:.2}′){} lies outside the image's usable field |l|, |m| ≤ {:.2}′ (imaging.image_size_px = {} of {}″, less a margin of {:.2}′ = max({EDGE_MARGIN_BEAMS} synthesized beams, {EDGE_MARGIN_PIXELS} pixels) at the edge): need image_size_px ≥ {need}, a larger cell_arcsec, or the source nearer the centre",
+                source.name,
+                component.l * ARCMIN_PER_RAD,
+                component.m * ARCMIN_PER_RAD,
+                if extent > 0.0 { format!(" with FWHM {:.2}′", extent * ARCMIN_PER_RAD) } else { String::new() },
+                usable * ARCMIN_PER_RAD,
+                config.imaging.image_size_px,
+                config.imaging.cell_arcsec,
+                margin * ARCMIN_PER_RAD,
+            ),
+        ));
+    }
+    problems
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn smooth_sizes_are_the_next_2_3_5_numbers() {
+        // 2^a 3^b 5^c ("regular" or 5-smooth numbers, OEIS A051037): 1, 2, 3, 4, 5, 6, 8, 9,
+        // 10, 12, 15, 16, ..., 250, 256, 270.
+        assert_eq!(smooth_size(7), 8);
+        assert_eq!(smooth_size(11), 12);
+        assert_eq!(smooth_size(13), 15);
+        assert_eq!(smooth_size(251), 256);
+        assert_eq!(smooth_size(257), 270);
+        assert_eq!(smooth_size(1440), 1440);
+    }
+}
