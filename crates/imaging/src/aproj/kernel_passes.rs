@@ -475,8 +475,13 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
         }
         let sites = self.sites(vis, &bins, Side::Forward);
         let (spans, mut buckets) = self.buckets(&sites);
+        // Samples in the same band of grid rows run together (their footprints on the W plane
+        // grids stay in cache), and within a band those sharing a kernel table.
+        let py_i = self.plan.pad_ny as i64;
         for bucket in buckets.iter_mut() {
-            bucket.sort_unstable_by_key(|&i| (sites[i].tables[0], i));
+            bucket.sort_unstable_by_key(|&i| {
+                (sites[i].y0.rem_euclid(py_i) as usize / BAND_ROWS, sites[i].tables[0], i)
+            });
         }
         let (px, py) = (self.plan.pad_nx, self.plan.pad_ny);
         let nx = self.plan.geometry.nx;
