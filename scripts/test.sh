@@ -10,3 +10,4 @@ rm -rf "$BEAMFLOOR_CROSSCHECK_DIR"
 mkdir -p "$BEAMFLOOR_CROSSCHECK_DIR"
 cargo test --workspace --release
 "$python" -m pytest -q tests/crosscheck
+scripts/test-sweep-slurm.sh   # sweeps as a Slurm job array on a one-node cluster vs the same sweep run locally

@@ -187,7 +187,7 @@ enum PointError {
     /// The key path does not lead anywhere in this config.
     Path(String),
     /// The point's config breaks a rule of the schema.
-    Config(ConfigError),
+    Config(Box<ConfigError>),
 }
 
 /// The config of one point: `raw` with `seed` and the assignments applied, then parsed.
@@ -205,7 +205,7 @@ fn point_config(
         set_at(&mut doc, &key.0, value, "").map_err(PointError::Path)?;
     }
     let text = toml::to_string(&doc).map_err(|e| PointError::Path(e.to_string()))?;
-    parse_config(&text, POINT_ORIGIN).map_err(PointError::Config)
+    parse_config(&text, POINT_ORIGIN).map_err(|e| PointError::Config(Box::new(e)))
 }
 
 const POINT_ORIGIN: &str = "sweep-point";
