@@ -375,6 +375,9 @@ fn beam_taylor_correction_takes_the_beam_spectrum_out_of_alpha() {
 /// - Plain A-projection with 2 Taylor terms over a 7% band (1.45–1.55 GHz, 50% source) also
 ///   converges to 1.6e-4 and then diverges (1.9e-3) — while one-term (MFS) A-projection on the
 ///   narrowband field converges (checks 1, 2, 4).
+/// - The same divergences, to three digits, with the uv-kernel A-projection operator in place of
+///   the image-domain one (a: 0.095 → 0.19; scaling: 0.028 → 0.15; fitted: 0.19 → 0.80), so the
+///   operator is not the cause.
 ///
 /// Suspected cause (runner, not operator): the multi-term minor cycle uses the phase-centre
 /// spectral PSFs, whose Hessian is H_st = Σ_ν w_ν x_ν^(s+t); but in the flat-noise frame the
