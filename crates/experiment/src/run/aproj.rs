@@ -80,9 +80,8 @@ pub fn binned_imaging_beam(
     let (hx, hy) = geometry.half_field_rad();
     let ref_freq_hz = config.observation.reference_freq_ghz() * 1e9;
     // The uv-kernels sample the beam over the whole padded grid's field, beyond the image.
-    let kernel_field = kernel_beam_half_width_rad(*geometry).map_err(|source| {
-        RunError::Imaging { strategy: strategy.name.clone(), source }
-    })?;
+    let kernel_field = kernel_beam_half_width_rad(*geometry)
+        .map_err(|source| RunError::Imaging { strategy: strategy.name.clone(), source })?;
     let mut params = beam_params(
         &beam_config,
         &switches,
