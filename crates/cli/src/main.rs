@@ -49,10 +49,6 @@ enum Command {
     /// interruption, and collect every point's metrics into one table and a floor plot.
     #[command(subcommand_required = true)]
     Sweep(commands::sweep::Args),
-    /// Run a config's [sweep] point by point, here or as a Slurm job array, resume after an
-    /// interruption, and collect every point's metrics into one table and a floor plot.
-    #[command(subcommand_required = true)]
-    Sweep(commands::sweep::Args),
 }
 
 fn main() -> ExitCode {
@@ -61,7 +57,6 @@ fn main() -> ExitCode {
         Command::Check(args) => commands::check::run(&args),
         Command::Simulate(args) => commands::simulate::run(&args),
         Command::Run(args) => commands::run::run(&args),
-        Command::Sweep(args) => commands::sweep::run(&args),
         Command::Sweep(args) => commands::sweep::run(&args),
         Command::PlotBeam(args) => commands::plot_beam::run(&args),
         Command::Decompose(args) => commands::decompose::run(&args),

@@ -24,6 +24,5 @@ pub mod run;
 pub mod scenario;
 pub mod simulation;
 pub mod sweep;
-pub mod sweep;
 
 pub use config::{load_config, parse_config, Config, ConfigError};

@@ -7,7 +7,6 @@ pub mod plot_beam;
 pub mod run;
 pub mod simulate;
 pub mod sweep;
-pub mod sweep;
 
 use std::fmt;
 
