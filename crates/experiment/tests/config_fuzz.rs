@@ -226,11 +226,12 @@ fn thousands_of_byte_mutations_never_panic() {
         }
         let text = String::from_utf8_lossy(&bytes).into_owned();
         let outcome = catch_unwind(AssertUnwindSafe(|| {
-            parse_config(&text, "fuzz.toml").map(|config| {
-                // The memory estimate takes any accepted config, however large.
-                let m = estimate_memory(&config, config.array.layout.antenna_count(), 2);
-                (config, m.total_bytes)
-            })
+            parse_config(&text, "fuzz.toml")
+                .map(|config| {
+                    // The memory estimate takes any accepted config, however large.
+                    estimate_memory(&config, config.array.layout.antenna_count(), 2).total_bytes
+                })
+                .map_err(Box::new)
         }));
         match outcome {
             Ok(Ok(_)) => accepted += 1,

@@ -202,7 +202,7 @@ fn check_finite(vis: &VisSet) -> Result<(), VisSetError> {
         .data
         .indexed_iter()
         .zip(vis.flags.iter())
-        .find(|((_, v), &flag)| !flag && !(v.re.is_finite() && v.im.is_finite()));
+        .find(|((_, v), &flag)| !flag && (!v.re.is_finite() || !v.im.is_finite()));
     if let Some((((r, c, p), v), _)) = unflagged_bad {
         return bad(
             "data",

@@ -15,7 +15,7 @@ pub enum RunError {
     /// The config breaks a physical-sanity rule or would not fit in memory (bad input; found by
     /// [`crate::run::preflight`] before any heavy work).
     #[error(transparent)]
-    Config(#[from] crate::config::ConfigError),
+    Config(Box<crate::config::ConfigError>),
     /// The run folder holds a different experiment (its config hash differs); it is not
     /// overwritten unless asked (`beamfloor run --force`, [`crate::run::clear_run_folder`]).
     #[error(

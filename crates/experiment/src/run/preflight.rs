@@ -317,7 +317,7 @@ fn located(config: &Config, config_path: Option<&Path>, problems: &[Problem]) ->
     match locate(config, config_path, problems) {
         Err(e) => e,
         // Unreachable for a non-empty list; say what was refused rather than panic.
-        Ok(()) => RunError::Config(crate::config::ConfigError::Several(Vec::new())),
+        Ok(()) => RunError::Config(Box::new(crate::config::ConfigError::Several(Vec::new()))),
     }
 }
 
@@ -335,7 +335,7 @@ fn locate(
     let (origin, text) = from_file.unwrap_or_else(|| {
         ("resolved config".to_string(), config.to_toml_string().unwrap_or_default())
     });
-    locate_problems(&origin, &text, problems).map_err(RunError::Config)
+    locate_problems(&origin, &text, problems).map_err(|e| RunError::Config(Box::new(e)))
 }
 
 fn problem(key_path: impl Into<String>, value: impl ToString, allowed: String) -> Problem {
