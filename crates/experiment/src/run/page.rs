@@ -81,7 +81,8 @@ pub(crate) fn report_page(c: &OutputContext<'_>, resolved_toml: &str) -> HtmlPag
         summary_blocks.push(HtmlBlock::Paragraph(format!(
             "Quick estimate of the average-beam floor: imaging only the difference between the \
              noise-free visibilities seen through the true beams and through the averaged, \
-             symmetrized beam (what an average beam cannot model) gives an off-source RMS of {} \
+             symmetrized beam (what an average beam cannot model), plus each source's apparent \
+             spectrum minus its best fit by the strategy's Taylor terms, gives an off-source RMS of {} \
              Jy/beam (worst pixel {} Jy/beam), computed in {:.1} s without any deconvolution; \
              with the thermal noise added in quadrature the predicted floor is {} Jy/beam. \
              \"{}\" measured {} Jy/beam after CLEAN (predicted/measured = {}). CLEAN absorbs \

@@ -8,7 +8,11 @@
 //! ΔV = V(true beams, noise-free) − V(P̄, noise-free),
 //!
 //! i.e. the rotation of the asymmetric pattern with parallactic angle, squint, pointing errors and
-//! anything else that varies between antennas or over time. Imaged on its own through the
+//! anything else that varies between antennas or over time. To it is added what the strategy's
+//! spectral model cannot represent even with that beam: every source's apparent spectrum
+//! P̄(r, ν) S(ν) minus its weighted least-squares fit by the strategy's N Taylor terms (the best
+//! a multi-term model can do; through a sidelobe or near a null the apparent spectrum is far from
+//! any low-order polynomial), predicted as a visibility of that source alone. Imaged on its own through the
 //! strategy's operator and weights, ΔV gives an error image whose RMS over the source-free pixels
 //! predicts the residual floor CLEAN will be left with: CLEAN can absorb only the part of the
 //! error that looks like sky, so the estimate is usually somewhat above the measured floor, and
@@ -18,7 +22,7 @@
 use std::time::Instant;
 
 use beamfloor_beam::DishBeam;
-use beamfloor_core::{ImageGeometry, Pol, VoltageBeam};
+use beamfloor_core::{ImageGeometry, Pol, VoltageBeam, SPEED_OF_LIGHT_M_PER_S};
 use beamfloor_imaging::{dirty_images, TaylorTerms, WRange};
 use beamfloor_metrics::{masked_statistics, source_free_mask, MaskParams, RestoringBeam};
 use beamfloor_predict::{SimulationParams, VisSet};
@@ -124,7 +128,11 @@ pub(crate) fn quick_estimate(
     let truth = simulate(truth_beam)?;
     let symmetric = SymmetrizedBeam::new(&average);
     let modelled = simulate(&symmetric)?;
-    let difference = VisSet { data: truth.data - &modelled.data, ..vis.clone() };
+    let mut difference = VisSet { data: truth.data - &modelled.data, ..vis.clone() };
+    let n_terms = strategy.taylor_terms() as usize;
+    let chan_weights = channel_weights(weights);
+    add_spectral_misfit(&mut difference, scenario, &average, &chan_weights, n_terms)
+        .map_err(|source| RunError::Sky { what: "quick estimate's spectral fit".into(), source })?;
 
     let imaging = |source| RunError::Imaging { strategy: strategy.name.clone(), source };
     let w_range = WRange::of_visibilities(&difference).map_err(imaging)?;
@@ -138,7 +146,6 @@ pub(crate) fn quick_estimate(
         minor_fwhm_rad: image.beam.minor_fwhm_rad,
         position_angle_rad: image.beam.position_angle_rad,
     };
-    let chan_weights = channel_weights(weights);
     let sources = source_truths(&scenario.sky, &vis.frequencies_hz, &chan_weights, 1)?;
     let metrics = |source| RunError::Metrics { strategy: strategy.name.clone(), source };
     let params = MaskParams::default();
@@ -162,4 +169,49 @@ pub(crate) fn quick_estimate(
         measured_floor_jy_per_beam: floors[k],
         seconds: t.elapsed().as_secs_f64(),
     }))
+}
+
+/// Adds, for every true source, the visibilities of its apparent-spectrum misfit
+/// e(ν) = a(ν) − â(ν), with a(ν) = P̄(r, ν) S(ν) through `average` and â the weighted
+/// least-squares fit of a by `n_terms` powers of x = (ν − ν0)/ν0 with the channel weights:
+/// V += e(ν) · envelope(u, v) · exp(−2πi (u l + v m + w (n − 1))) on both hands (the sign
+/// convention of the prediction).
+fn add_spectral_misfit(
+    vis: &mut VisSet,
+    scenario: &Scenario,
+    average: &DishBeam,
+    chan_weights: &[f64],
+    n_terms: usize,
+) -> Result<(), beamfloor_sky::SkyError> {
+    let freqs = vis.frequencies_hz.clone();
+    let x: Vec<f64> =
+        freqs.iter().map(|f| (f - scenario.ref_freq_hz) / scenario.ref_freq_hz).collect();
+    for c in &scenario.sky {
+        let r = c.l.hypot(c.m);
+        let a: Vec<f64> = freqs
+            .iter()
+            .map(|&f| average.symmetrized_power(r, f).max(0.0) * c.spectrum.flux_at(f))
+            .collect();
+        let coefficients = beamfloor_sky::fit_polynomial(&x, &a, chan_weights, n_terms)?;
+        let e: Vec<f64> = a
+            .iter()
+            .zip(&x)
+            .map(|(a, x)| a - coefficients.iter().rev().fold(0.0, |acc, c| acc * x + c))
+            .collect();
+        if e.iter().all(|e| *e == 0.0) {
+            continue;
+        }
+        let n1 = c.n() - 1.0;
+        for (row, mut lanes) in vis.data.outer_iter_mut().enumerate() {
+            let (um, vm, wm) = (vis.uvw_m[[row, 0]], vis.uvw_m[[row, 1]], vis.uvw_m[[row, 2]]);
+            for (k, mut lane) in lanes.outer_iter_mut().enumerate() {
+                let scale = freqs[k] / SPEED_OF_LIGHT_M_PER_S;
+                let (u, v, w) = (um * scale, vm * scale, wm * scale);
+                let phase = -2.0 * std::f64::consts::PI * (u * c.l + v * c.m + w * n1);
+                let value = Complex64::from_polar(e[k] * c.envelope(u, v), phase);
+                lane.iter_mut().for_each(|d| *d += value);
+            }
+        }
+    }
+    Ok(())
 }
