@@ -142,11 +142,7 @@ fn prepare_folder(
             describe_state(&state)
         ),
         RunFolderState::Incomplete { .. } | RunFolderState::Complete { .. } if force => {
-            eprintln!(
-                "note: --force: replacing {} in {}",
-                describe_state(&state),
-                out.display()
-            );
+            eprintln!("note: --force: replacing {} in {}", describe_state(&state), out.display());
             clear_run_folder(out).map_err(Failure::running)?;
         }
         _ => {}

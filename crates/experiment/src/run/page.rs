@@ -189,7 +189,10 @@ pub(crate) fn report_page(c: &OutputContext<'_>, resolved_toml: &str) -> HtmlPag
         ("plots/uv-coverage.png", "uv-coverage of the observation."),
     ];
     if super::outputs::has_alpha_chart(c) {
-        plots.push(("plots/source-alpha-errors.png", "Spectral-index error per source and strategy."));
+        plots.push((
+            "plots/source-alpha-errors.png",
+            "Spectral-index error per source and strategy.",
+        ));
     }
     if c.scenario.beam.is_some() {
         plots.push((
