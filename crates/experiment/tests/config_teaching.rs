@@ -4,7 +4,7 @@
 
 use std::path::PathBuf;
 
-use beamfloor_experiment::run::check_strategies;
+use beamfloor_experiment::run::{check_strategies, preflight_with_memory};
 use beamfloor_experiment::scenario::Scenario;
 use beamfloor_experiment::{load_config, parse_config};
 
@@ -29,6 +29,11 @@ fn every_shipped_config_loads_round_trips_and_builds_its_scenario() {
         let again =
             parse_config(&text, "resolved").unwrap_or_else(|e| panic!("{}: {e}", path.display()));
         assert_eq!(config, again, "{} does not round-trip", path.display());
+        // The physical checks a run makes first (Nyquist cell, sources inside the image, a
+        // track above the elevation limit, kernel on the grid; memory against a fixed 16 GiB so
+        // the test does not depend on this machine).
+        preflight_with_memory(&config, Some(path), Some(16 << 30))
+            .unwrap_or_else(|e| panic!("{}: {e}", path.display()));
         let scenario = Scenario::build(&config, Some(path))
             .unwrap_or_else(|e| panic!("{}: {e}", path.display()));
         assert!(!scenario.sky.is_empty());
