@@ -62,6 +62,8 @@ fn small_run_writes_a_complete_folder() {
         "plots/radial-rms.png",
         "plots/source-flux-errors.png",
         "plots/source-alpha-errors.png",
+        "plots/stokes-v-dirty.png",
+        "stokes-v-dirty.fits",
     ] {
         assert!(out.join(f).is_file(), "missing {f}");
     }
@@ -128,6 +130,7 @@ fn small_run_writes_a_complete_folder() {
             ["restored", "residual", "model", "psf", "alpha", "error"]
                 .map(|k| format!("strategies/{s}/{k}.fits"))
         })
+        .chain(["stokes-v-dirty.fits".to_string()])
         .collect();
     let export = serde_json::json!({
         "run_dir": out.canonicalize().unwrap(),
