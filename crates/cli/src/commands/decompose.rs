@@ -8,10 +8,9 @@ use beamfloor_experiment::decompose::{run_decomposition, write_decomposition};
 use beamfloor_experiment::run::{CycleReport, RunObserver};
 use beamfloor_experiment::{load_config, parse_config};
 
+use super::run::DEMO_TOML;
 use super::Failure;
 
-/// The built-in demo (a copy of configs/demo.toml, embedded at build time).
-const DEMO_TOML: &str = include_str!("../../../../configs/demo.toml");
 
 /// Arguments of `decompose`.
 #[derive(clap::Args)]

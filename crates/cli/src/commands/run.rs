@@ -17,7 +17,7 @@ use beamfloor_experiment::{load_config, parse_config};
 use super::{interrupt, Failure};
 
 /// The built-in demo (a copy of configs/demo.toml, embedded at build time).
-const DEMO_TOML: &str = include_str!("../../../../configs/demo.toml");
+pub(crate) const DEMO_TOML: &str = include_str!("../../../../configs/demo.toml");
 
 /// Arguments of `run`.
 #[derive(clap::Args)]
