@@ -11,7 +11,6 @@ use beamfloor_experiment::{load_config, parse_config};
 use super::run::DEMO_TOML;
 use super::Failure;
 
-
 /// Arguments of `decompose`.
 #[derive(clap::Args)]
 pub struct Args {
