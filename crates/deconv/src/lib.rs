@@ -53,8 +53,8 @@ pub use convolve::convolve_same;
 pub use error::DeconvError;
 pub use hessian::TermHessian;
 pub use major::{
-    run_major_cycles, CycleReport, Deconvolved, MajorCycleParams, MajorStop, ResidualImager,
-    Threshold,
+    run_major_cycles, CycleReport, Deconvolved, MajorCycleParams, MajorStop, OnDivergence,
+    ResidualImager, Threshold,
 };
 pub use minor::{run_minor_cycle, CleanParams, MinorCycleOutcome, MinorStop, MAX_TERMS};
 pub use plan::MinorCyclePlan;

@@ -67,6 +67,22 @@ pub struct MajorCycleParams {
     /// next major cycle diverge (seen on the demo with 0.02). 0 = the whole PSF (exact).
     /// In [0, 1). Default 0.
     pub psf_patch_sidelobe: f64,
+    /// What a growing residual does (see [`OnDivergence`]). Default [`OnDivergence::Fail`].
+    pub on_divergence: OnDivergence,
+}
+
+/// What happens when a major cycle's peak residual grows by more than the divergence factor
+/// (or a minor cycle's within itself).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum OnDivergence {
+    /// Fail with [`DeconvError::MajorCycleDiverged`] / [`DeconvError::MinorCycleDiverged`].
+    Fail,
+    /// Stop with [`MajorStop::ResidualGrew`], keeping the model and the exact residuals of the
+    /// last cycle before the growth (the best the run reached); the growing cycle's report is
+    /// still passed to the callback and kept in [`Deconvolved::cycles`]. For comparisons where
+    /// an operator whose minor-cycle PSF model is too approximate is a result to measure, not
+    /// an error.
+    KeepBest,
 }
 
 impl Default for MajorCycleParams {
@@ -79,6 +95,7 @@ impl Default for MajorCycleParams {
             minor_cycle_depth: 0.2,
             divergence_factor: 1.5,
             psf_patch_sidelobe: 0.0,
+            on_divergence: OnDivergence::Fail,
         }
     }
 }
@@ -107,6 +124,9 @@ pub enum MajorStop {
     CycleCap,
     /// The minor cycle found nothing left to clean (residual zero in the search region).
     NothingLeft,
+    /// The peak residual grew by more than the divergence factor (major or minor cycle) and
+    /// [`OnDivergence::KeepBest`] kept the model and residuals from before the growth.
+    ResidualGrew,
 }
 
 /// Result of a deconvolution run.
@@ -118,7 +138,7 @@ pub struct Deconvolved {
     pub residuals: Vec<Array2<f64>>,
     /// One report per exact residual (also passed to the callback).
     pub cycles: Vec<CycleReport>,
-    /// Components subtracted in total.
+    /// Components subtracted in total (in the model returned).
     pub iterations: usize,
     /// Why it stopped.
     pub stop: MajorStop,
@@ -130,7 +150,8 @@ pub struct Deconvolved {
 /// `geometry` gives the image shape `[ny, nx]` of the model and residuals. Cycle 0 asks for the residual of a zero model (the dirty images). After each exact residual
 /// the callback receives a [`CycleReport`]; then the run stops if the peak is at or below the
 /// threshold, if the iteration or cycle cap is reached, or fails if the peak grew by more than
-/// `divergence_factor` over the previous cycle. Nothing is printed.
+/// `divergence_factor` over the previous cycle (or, with [`OnDivergence::KeepBest`], stops
+/// with the model from before the growth). Nothing is printed.
 pub fn run_major_cycles<I: ResidualImager + ?Sized>(
     imager: &mut I,
     geometry: &ImageGeometry,
@@ -174,6 +195,9 @@ pub fn run_major_cycles<I: ResidualImager + ?Sized>(
     let mut iterations = 0usize;
     let mut previous: Option<f64> = None;
     let mut cycle = 0usize;
+    let keep_best = params.on_divergence == OnDivergence::KeepBest;
+    // With KeepBest: the model, residuals and component count before the last minor cycle.
+    let mut before: Option<(Vec<Array2<f64>>, Vec<Array2<f64>>, usize)> = None;
     let stop = loop {
         let peak = peak_abs(&residuals[0], mask);
         let report =
@@ -182,6 +206,10 @@ pub fn run_major_cycles<I: ResidualImager + ?Sized>(
         cycles.push(report);
         if let Some(prev) = previous {
             if peak > params.divergence_factor * prev {
+                if let Some((m, r, i)) = before.take() {
+                    (model, residuals, iterations) = (m, r, i);
+                    break MajorStop::ResidualGrew;
+                }
                 return Err(DeconvError::MajorCycleDiverged {
                     cycle,
                     peak,
@@ -204,7 +232,19 @@ pub fn run_major_cycles<I: ResidualImager + ?Sized>(
             max_iterations: params.max_iterations - iterations,
             ..base
         };
-        let outcome = run_minor_cycle(plan, &mut residuals, &mut model, &minor, mask)?;
+        if keep_best {
+            before = Some((model.clone(), residuals.clone(), iterations));
+        }
+        let outcome = match run_minor_cycle(plan, &mut residuals, &mut model, &minor, mask) {
+            Ok(outcome) => outcome,
+            Err(DeconvError::MinorCycleDiverged { .. }) if keep_best => {
+                if let Some((m, r, i)) = before.take() {
+                    (model, residuals, iterations) = (m, r, i);
+                }
+                break MajorStop::ResidualGrew;
+            }
+            Err(e) => return Err(e),
+        };
         iterations += outcome.iterations;
         if outcome.stop == MinorStop::NothingLeft && outcome.iterations == 0 {
             break MajorStop::NothingLeft;

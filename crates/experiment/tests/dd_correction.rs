@@ -362,37 +362,18 @@ fn beam_taylor_correction_takes_the_beam_spectrum_out_of_alpha() {
 /// frequency choices. Wideband A-projection must be within 0.05 of the true α at the 50% point
 /// and have the smallest α error of all at the 10% point.
 ///
-/// Ignored: in this version every A-projection strategy diverges in multi-term mode (the runner
-/// reports it and skips the strategy), so there is no α to compare. Measured on this config
-/// (1–2 GHz, 4 channels, 3 Taylor terms, 10° PA bins, peak residual per major cycle, Jy/beam):
-/// - `"a"`: 0.54 → 0.095 → 0.18, diverged (cycle 2).
-/// - `"wideband-scaling"`: 0.49 → 0.11 → 0.028 → 0.15, diverged (cycle 3, after the minor
-///   cycle ran to the 4000-component cap); `"wideband-fitted"`: 0.52 → 0.19 → 1.0, diverged.
-/// - With `pb_cutoff = 0.05` instead of 0.001: the same (scaling 0.49 → 0.097 → 0.020 → 0.49).
-/// - With only the 50% source and `pb_cutoff = 0.3` (CLEAN confined to the inner beam):
-///   scaling and fitted converge for five cycles (to 3.7e-4 and 2.9e-4), then diverge in the
-///   sixth (8.4e-4, 3.2e-3); `"a"` still diverges in cycle 2.
-/// - Plain A-projection with 2 Taylor terms over a 7% band (1.45–1.55 GHz, 50% source) also
-///   converges to 1.6e-4 and then diverges (1.9e-3) — while one-term (MFS) A-projection on the
-///   narrowband field converges (checks 1, 2, 4).
-/// - The same divergences, to three digits, with the uv-kernel A-projection operator in place of
-///   the image-domain one (a: 0.095 → 0.19; scaling: 0.028 → 0.15; fitted: 0.19 → 0.80), so the
-///   operator is not the cause.
-///
-/// Suspected cause (runner, not operator): the multi-term minor cycle uses the phase-centre
-/// spectral PSFs, whose Hessian is H_st = Σ_ν w_ν x_ν^(s+t); but in the flat-noise frame the
-/// Taylor residuals at a pixel respond to the model with H'_st = Σ_ν w_ν x_ν^(s+t)
-/// A_grid(ν) A(ν) / W, weighted by the beam product's spectrum there. The exact fixed point of
-/// the major cycle is right (a weighted polynomial fit of a flat spectrum is exact), but the
-/// iteration converges only while H⁻¹H' stays close to the identity; with 2–3 terms its poorly
-/// determined directions (I_1, I_2) are amplified, most for plain A-projection (A², a strong
-/// spectrum: diverges first), less for wideband (A·A_c nearly flat: diverges late, at low
-/// levels). A fix is to normalize the Taylor residuals per pixel by the sensitivity's own
-/// Taylor Hessian (Σ w x^(s+t) A_grid A / Σ w, from the same screens) before the minor cycle, or
-/// to divide the model's spectrum by it before prediction — in run/residual.rs and
-/// run/strategy.rs, outside this test.
+/// How the multi-term A-projection strategies are deconvolved (run/channel_model.rs): the minor
+/// cycle models the apparent spectrum in the flat-noise frame and the model is predicted channel
+/// by channel through each channel's sensitivity, so that around every component each channel
+/// responds as the minor cycle's spectral PSFs say; the search is confined to the unblanked
+/// pixels. History, for the next reader: predicting the Taylor model × 1/√W as the sky diverged
+/// for every multi-term A strategy (the operator weights the Taylor terms by the beam product's
+/// spectrum, Σ w x^(s+t) A_grid A / W, not by the phase-centre Hessian); matching that Hessian
+/// per pixel still diverged (it amplifies the poorly determined higher terms by up to 10⁴ where
+/// the beam is small in part of the band); and a search over blanked pixels chased sidelobes no
+/// prediction can remove. With the old 10-antenna, 1.5-hour coverage the wideband strategies
+/// still stopped on a growing residual: the sidelobe error scales with the PSF sidelobe level.
 #[test]
-#[ignore = "multi-term A-projection diverges in the runner; see the doc comment for numbers"]
 fn wideband_a_projection_gets_the_spectral_index_right() {
     let (run, scenario) = wideband_field(None);
     let half = alpha_errors(&run, &scenario, "half-power");

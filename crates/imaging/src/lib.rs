@@ -59,8 +59,9 @@ pub use aproj::{
     first_null_radius_rad, fitted_conjugate_frequencies, flat_noise, flat_sky,
     kernel_beam_half_width_rad, kernel_table_bytes, main_lobe_mismatch,
     reciprocal_conjugate_frequency, screen_cache_bytes, AProjection, AProjectionParams,
-    ConjugateFitParams, ConjugateFrequency, DirectBeamOperator, KernelAProjection,
-    KernelAProjectionParams, KernelInterpolation, KernelTableEstimate, KernelView,
+    ChannelSensitivities, ConjugateFitParams, ConjugateFrequency, DirectBeamOperator,
+    KernelAProjection, KernelAProjectionParams, KernelInterpolation, KernelTableEstimate,
+    KernelView,
 };
 pub use direct::DirectOperator;
 pub use dirty::{dirty_images, predict_visibilities, DirtyImages, TaylorTerms};

@@ -323,9 +323,10 @@ fn sensitivity_image_equals_the_image_domain_operators() {
 }
 
 /// The sensitivity moments by their definition, W_k = Σ w x^k |E_i E_j*|² / Σ w with
-/// x = (ν − ν0)/ν0, each row's own antennas and its PA bin, summed sample by sample.
+/// x = (ν − ν0)/ν0, each row's own antennas and its PA bin, summed sample by sample; and the
+/// per-channel sensitivities W_c = Σ_{samples of c} w |E_i E_j*|² / Σ_{samples of c} w.
 #[test]
-fn sensitivity_moments_follow_their_definition() {
+fn sensitivity_moments_and_channel_sensitivities_follow_their_definition() {
     let b = beam(4, 0.0);
     let (mut vis, bins) = visset(17, 30);
     let mut r = rng(18);
@@ -335,6 +336,8 @@ fn sensitivity_moments_follow_their_definition() {
     let moments = op.sensitivity_moments(&vis, &vis.weights, 5, NU0).expect("moments");
     let g = geometry();
     let mut want = vec![Array2::<f64>::zeros((g.ny, g.nx)); 5];
+    let mut want_channel = vec![Array2::<f64>::zeros((g.ny, g.nx)); vis.n_channels()];
+    let mut channel_total = vec![0.0; vis.n_channels()];
     let mut total = 0.0;
     for row in 0..vis.n_rows() {
         let bin = bins[vis.time_index[row] as usize];
@@ -347,9 +350,11 @@ fn sensitivity_moments_follow_their_definition() {
                 }
                 let wt = vis.weights[[row, c, p]];
                 total += wt;
+                channel_total[c] += wt;
                 for (iy, ix) in (0..g.ny).flat_map(|iy| (0..g.nx).map(move |ix| (iy, ix))) {
                     let (l, m) = g.lm_of_pixel(ix as f64, iy as f64);
                     let a = b.baseline_product(a1, a2, bin, f, corr.receptor(), l, m).norm_sqr();
+                    want_channel[c][[iy, ix]] += wt * a;
                     for (k, image) in want.iter_mut().enumerate() {
                         image[[iy, ix]] += wt * x.powi(k as i32) * a;
                     }
@@ -366,6 +371,13 @@ fn sensitivity_moments_follow_their_definition() {
     }
     let w0 = op.sensitivity_image(&vis, &vis.weights).expect("sensitivity");
     assert!(max_rel_err(common::cx(&w0), common::cx(&moments[0])) < 1e-15);
+    let channels = op.channel_sensitivities(&vis, &vis.weights).expect("channels");
+    for c in 0..vis.n_channels() {
+        assert!((channels.weights[c] - channel_total[c]).abs() < 1e-12 * channel_total[c]);
+        let want = &want_channel[c] / channel_total[c];
+        let err = max_rel_err(common::cx(&channels.images[c]), common::cx(&want));
+        assert!(err < 1e-12, "channel {c}: {err:e}");
+    }
 }
 
 /// What the moments are for: at a point source's own pixel every phase cancels, so the

@@ -103,6 +103,9 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             s.major_cycles,
             s.seconds
         );
+        if let Some(note) = &s.stop_note {
+            println!("  note: {note}");
+        }
     }
     if let Some(q) = &summary.quick_estimate {
         println!(

@@ -3,8 +3,8 @@ use crate::dft;
 use beamfloor_core::{taylor_weight, ImageGeometry};
 use beamfloor_deconv::{
     fit_restoring_beam, restore, run_major_cycles, spectral_maps, BeamFitParams, CycleReport,
-    DeconvError, MajorCycleParams, MajorStop, MinorCyclePlan, ResidualImager, SpectralMapParams,
-    Threshold,
+    DeconvError, MajorCycleParams, MajorStop, MinorCyclePlan, OnDivergence, ResidualImager,
+    SpectralMapParams, Threshold,
 };
 use ndarray::Array2;
 
@@ -125,4 +125,28 @@ fn divergence_guard_fires_with_numbers() {
         }
         e => panic!("expected divergence, got {e}"),
     }
+}
+
+/// With `OnDivergence::KeepBest` the same growing imager ends the run with the model and the
+/// exact residuals from before the growth (here: the dirty image and an empty model, since the
+/// first minor cycle's result is what made the residual grow), and the growing cycle reported.
+#[test]
+fn keep_best_returns_the_model_before_the_growth() {
+    let psf = &dft::shared_psfs()[0];
+    let g = dft::geometry();
+    let dirty = crate::mfs::point_source_dirty(1).remove(0);
+    let mut imager = GrowingImager { dirty: dirty.clone(), calls: 0 };
+    let plan = MinorCyclePlan::hogbom(psf).unwrap();
+    let params = MajorCycleParams {
+        divergence_factor: 1.5,
+        on_divergence: OnDivergence::KeepBest,
+        ..Default::default()
+    };
+    let out = run_major_cycles(&mut imager, &g, &plan, &params, None, &mut |_| {}).unwrap();
+    assert_eq!(out.stop, MajorStop::ResidualGrew);
+    assert_eq!(out.cycles.len(), 2, "{:?}", out.cycles);
+    assert!(out.cycles[1].peak_residual > 1.5 * out.cycles[0].peak_residual);
+    assert_eq!(out.iterations, 0);
+    assert!(out.model[0].iter().all(|&v| v == 0.0));
+    assert_eq!(out.residuals[0], dirty);
 }

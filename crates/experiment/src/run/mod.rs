@@ -35,6 +35,7 @@
 //! ```
 
 mod aproj;
+mod channel_model;
 mod error;
 mod folder;
 mod guards;
@@ -50,6 +51,7 @@ mod runner;
 mod stokes_v;
 mod strategy;
 mod tables;
+mod taylor_response;
 mod truth;
 
 pub use aproj::{binned_imaging_beam, build_a_operator, parallactic_angle_bins, BinnedBeam};

@@ -63,6 +63,9 @@ pub(crate) fn report_page(c: &OutputContext<'_>, resolved_toml: &str) -> HtmlPag
     for (name, reason) in c.skipped {
         summary_blocks.push(HtmlBlock::Note(format!("Not run: {name} — {reason}")));
     }
+    for note in c.images.iter().filter_map(super::strategy::stop_description) {
+        summary_blocks.push(HtmlBlock::Note(note));
+    }
     summary_blocks.push(table_block(
         &summary,
         &[

@@ -5,6 +5,8 @@ use beamfloor_imaging::{predict_visibilities, GridOutput, ImagingOperator, Taylo
 use beamfloor_predict::VisSet;
 use ndarray::{Array2, Array3};
 
+use super::channel_model::ChannelModel;
+
 /// Residuals for the major cycle: degrid the model through `operator` (the same forward model
 /// the images come from), subtract it from the data, grid the difference with the imaging
 /// weights and the Taylor weights, and divide by Σ w — exactly the normalisation of
@@ -22,6 +24,9 @@ pub struct OperatorResiduals<'a> {
     /// g after gridding. With g = 1/√W (zero where blanked) the minor cycle works in the
     /// flat-noise frame. None = 1.
     normalisation: Option<Array2<f64>>,
+    /// Multi-term A-projection: predict the model channel by channel (see
+    /// [`super::channel_model`]) instead of as Taylor images × g. None = Taylor images.
+    channels: Option<&'a ChannelModel>,
 }
 
 impl<'a> OperatorResiduals<'a> {
@@ -39,7 +44,16 @@ impl<'a> OperatorResiduals<'a> {
                 channel_factors: taylor.channel_weights(t, &vis.frequencies_hz),
             })
             .collect();
-        Self { operator, vis, weights, taylor, sum_weights, outputs, normalisation: None }
+        Self {
+            operator,
+            vis,
+            weights,
+            taylor,
+            sum_weights,
+            outputs,
+            normalisation: None,
+            channels: None,
+        }
     }
 
     /// Uses the per-pixel factor g on both sides of the operator: model × g is degridded and the
@@ -52,6 +66,14 @@ impl<'a> OperatorResiduals<'a> {
         self.normalisation = Some(factor);
         self
     }
+
+    /// Predicts the model's sky channel by channel with `channels` (the minor cycle's Taylor
+    /// model is the apparent spectrum in the flat-noise frame; see [`super::channel_model`])
+    /// instead of degridding model × g as Taylor images. The residuals are unchanged.
+    pub fn with_channel_model(mut self, channels: &'a ChannelModel) -> Self {
+        self.channels = Some(channels);
+        self
+    }
 }
 
 impl ResidualImager for OperatorResiduals<'_> {
@@ -59,13 +81,20 @@ impl ResidualImager for OperatorResiduals<'_> {
         let imager = |e: beamfloor_imaging::ImagingError| DeconvError::Imager(e.to_string());
         let mut data = self.vis.data.clone();
         if model.iter().any(|m| m.iter().any(|&v| v != 0.0)) {
-            let sky: Vec<Array2<f64>> = match &self.normalisation {
-                Some(g) => model.iter().map(|m| m * g).collect(),
-                None => model.to_vec(),
+            let predicted = match self.channels {
+                Some(channels) => self
+                    .operator
+                    .degrid(self.vis, &channels.sky_channels(model), &channels.one_hot_factors())
+                    .map_err(imager)?,
+                None => {
+                    let sky: Vec<Array2<f64>> = match &self.normalisation {
+                        Some(g) => model.iter().map(|m| m * g).collect(),
+                        None => model.to_vec(),
+                    };
+                    predict_visibilities(self.operator, self.vis, &sky, self.taylor.ref_freq_hz)
+                        .map_err(imager)?
+                }
             };
-            let predicted =
-                predict_visibilities(self.operator, self.vis, &sky, self.taylor.ref_freq_hz)
-                    .map_err(imager)?;
             data -= &predicted;
         }
         data.zip_mut_with(self.weights, |v, &w| *v *= w);

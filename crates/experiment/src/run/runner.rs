@@ -47,6 +47,9 @@ pub struct StrategySummary {
     pub major_cycles: usize,
     /// Wall time, s.
     pub seconds: f64,
+    /// Why CLEAN stopped, when that matters for reading the floor (component cap, growing
+    /// residual).
+    pub stop_note: Option<String>,
 }
 
 /// The result of a run.
@@ -279,6 +282,7 @@ pub fn run_experiment(
             dynamic_range: s.image.dynamic_range,
             major_cycles: im.cycles.len().saturating_sub(1),
             seconds: im.seconds,
+            stop_note: super::strategy::stop_description(im),
         })
         .collect();
     super::finish_run(out_dir, config)?;

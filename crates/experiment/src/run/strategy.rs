@@ -5,8 +5,8 @@ use beamfloor_array::Observation;
 use beamfloor_core::ImageGeometry;
 use beamfloor_deconv::{
     fit_restoring_beam, restore, run_major_cycles, spectral_maps, BeamFitParams, CycleReport,
-    MajorCycleParams, MajorStop, MinorCyclePlan, RestoringBeam, ScaleSet, SpectralMapParams,
-    Threshold,
+    MajorCycleParams, MajorStop, MinorCyclePlan, OnDivergence, RestoringBeam, ScaleSet,
+    SpectralMapParams, Threshold,
 };
 use beamfloor_imaging::{GridOutput, ImagingOperator, TaylorTerms, WRange};
 use beamfloor_predict::VisSet;
@@ -14,8 +14,10 @@ use ndarray::{Array2, Array3};
 use num_complex::Complex64;
 
 use super::aproj::{binned_imaging_beam, build_a_operator, kernel_max_freq_hz};
+use super::channel_model::ChannelModel;
 use super::operator::build_operator;
 use super::pbcor::{beam_validity, divide_beam_taylor};
+use super::taylor_response::TaylorResponse;
 use super::RunError;
 use crate::config::{CleanThreshold, Config, Gridding};
 
@@ -104,15 +106,26 @@ pub fn image_strategy(
         (None, Some(p)) => p.as_ref(),
         (None, None) => unreachable!("one of the two operators is always built"),
     };
-    // A-projection: the sensitivity W and the flat-noise factor g = 1/√W, zero where √W is below
-    // the primary-beam cut-off of its peak (W ≈ P², so the cut-off applies to √W as it does to P).
-    let sensitivity = match &a_operator {
-        Some(a) => Some(a.sensitivity_image(vis, weights).map_err(imaging)?),
+    // Per-channel sensitivities W_c; their moments W_0 … W_{2N−2} (W_0 is the sensitivity
+    // image; the higher ones turn a multi-term model into sky Taylor terms, see
+    // `taylor_response`).
+    let n_moments = if n_terms >= 2 { 2 * n_terms - 1 } else { 1 };
+    let channel_sensitivity = match &a_operator {
+        Some(a) => Some(a.channel_sensitivities(vis, weights).map_err(imaging)?),
         None => None,
     };
-    let flat_noise_factor = sensitivity.as_ref().map(|w| {
+    let moments = match &channel_sensitivity {
+        Some(c) => c.moments(&vis.frequencies_hz, ref_freq_hz, n_moments),
+        None => Vec::new(),
+    };
+    super::guards::check_finite(&name, "A-projection sensitivity moments", &moments)?;
+    // The sensitivity W = W_0 and the flat-noise factor g = 1/√W, zero where √W is below the
+    // primary-beam cut-off of its peak (W ≈ P², so the cut-off applies to √W as it does to P).
+    let sensitivity_cut = moments.first().map(|w| {
         let peak = w.iter().copied().fold(0.0f64, f64::max);
-        let cut = config.imaging.pb_cutoff * config.imaging.pb_cutoff * peak;
+        config.imaging.pb_cutoff * config.imaging.pb_cutoff * peak
+    });
+    let flat_noise_factor = moments.first().zip(sensitivity_cut).map(|(w, cut)| {
         w.mapv(|x| if x.is_finite() && x >= cut && x > 0.0 { 1.0 / x.sqrt() } else { 0.0 })
     });
 
@@ -134,10 +147,6 @@ pub fn image_strategy(
         *p /= sum_weights;
     }
     super::guards::check_finite(&name, "spectral PSFs (weights through the kernel)", &psfs)?;
-    if let Some(w) = &sensitivity {
-        let stage = "A-projection sensitivity image";
-        super::guards::check_finite(&name, stage, std::slice::from_ref(w))?;
-    }
     let beam = fit_restoring_beam(&psfs[0], geometry.cell_rad, &BeamFitParams::default())
         .map_err(deconv)?;
     let scales = ScaleSet::gaussian(&strategy.scales_px);
@@ -153,15 +162,40 @@ pub fn image_strategy(
         threshold,
         max_iterations: clean.max_iterations as usize,
         max_major_cycles: clean.max_major_cycles as usize,
+        // A residual that grows is a measured property of the strategy (its minor cycle's PSF
+        // model is too far from its operator), reported with the best images it reached.
+        on_divergence: OnDivergence::KeepBest,
         ..MajorCycleParams::default()
     };
+    // Multi-term A-projection: the minor cycle models the apparent spectrum (flat-noise frame),
+    // predicted channel by channel; the restored images become sky Taylor terms by g · T below.
+    let (channel_model, response) = match (&flat_noise_factor, &channel_sensitivity) {
+        (Some(g), Some(channels)) if n_terms >= 2 => {
+            let cutoff = sensitivity_cut.unwrap_or(0.0);
+            let factors = (0..n_terms).map(|t| taylor.channel_weights(t, &vis.frequencies_hz));
+            (
+                Some(ChannelModel::new(&channels.images, g, cutoff, factors.collect())),
+                Some(TaylorResponse::new(&moments, plan.point_hessian(), &g.mapv(|f| f > 0.0))),
+            )
+        }
+        _ => (None, None),
+    };
+    drop((moments, channel_sensitivity));
     let mut imager = super::residual::OperatorResiduals::new(operator, vis, weights, taylor);
     if let Some(g) = &flat_noise_factor {
         imager = imager.with_normalisation(g.clone());
     }
+    if let Some(channels) = &channel_model {
+        imager = imager.with_channel_model(channels);
+    }
     let mut imager = super::guards::GuardedResiduals::new(imager);
+    // A-projection: components only where the sky is trusted (g > 0). Outside, the residuals are
+    // zero by construction, so PSF sidelobes the minor cycle subtracts there leave structure no
+    // prediction can ever remove, and a search that includes those pixels chases it.
+    let search = flat_noise_factor.as_ref().map(|g| g.mapv(|f| f > 0.0));
     let result =
-        run_major_cycles(&mut imager, &geometry, &plan, &params, None, progress).map_err(deconv)?;
+        run_major_cycles(&mut imager, &geometry, &plan, &params, search.as_ref(), progress)
+            .map_err(deconv)?;
     let restored =
         restore(&result.model, &result.residuals, plan.point_hessian(), &beam, geometry.cell_rad)
             .map_err(deconv)?;
@@ -176,6 +210,10 @@ pub fn image_strategy(
                 .clone()
                 .unwrap_or_else(|| Array2::ones((geometry.ny, geometry.nx)));
             let to_sky = |images: &[Array2<f64>]| -> Vec<Array2<f64>> {
+                let images = match &response {
+                    Some(t) => t.apply(images),
+                    None => images.to_vec(),
+                };
                 images
                     .iter()
                     .map(|im| {
@@ -218,9 +256,10 @@ pub fn image_strategy(
     };
     // A-projection strategies deconvolve in the flat-noise frame; their model, stored in the sky
     // frame, is model × g.
-    let model = match &flat_noise_factor {
-        Some(g) => result.model.iter().map(|m| m * g).collect(),
-        None => result.model,
+    let model = match (&flat_noise_factor, &response) {
+        (Some(g), Some(t)) => t.apply(&result.model).iter().map(|m| m * g).collect(),
+        (Some(g), None) => result.model.iter().map(|m| m * g).collect(),
+        (None, _) => result.model,
     };
     let (residuals, restored_apparent) = (result.residuals, restored.images);
     Ok(StrategyImages {
@@ -239,4 +278,35 @@ pub fn image_strategy(
         stop: result.stop,
         seconds: start.elapsed().as_secs_f64(),
     })
+}
+
+/// A sentence on why CLEAN stopped, when the reason matters for reading the floor (the
+/// component cap or a growing residual); None when it reached its threshold, its major-cycle cap
+/// or found nothing left.
+pub(crate) fn stop_description(images: &StrategyImages) -> Option<String> {
+    match images.stop {
+        MajorStop::IterationCap => Some(format!(
+            "{}: CLEAN used its whole component budget (max_iterations) before reaching its              threshold; what is left is either too faint to reach in that budget or a floor the              model cannot represent (compare the quick estimate).",
+            images.name
+        )),
+        MajorStop::ResidualGrew => {
+            let n = images.cycles.len();
+            let (grew, before) = (images.cycles[n - 1], images.cycles[n.saturating_sub(2)]);
+            if n < 2 || grew.peak_residual <= before.peak_residual {
+                return Some(format!(
+                    "{}: CLEAN stopped when the residual grew within the minor cycle after major \
+                     cycle {}; the images are those of that cycle, the best it reached.",
+                    images.name, grew.cycle
+                ));
+            }
+            Some(format!(
+                "{}: CLEAN stopped when the peak residual grew in major cycle {} ({} → {}                  Jy/beam); the images are those of the cycle before, the best it reached. The                  minor cycle's PSF model was too far from this strategy's operator there (for                  A-projection: PSF sidelobes seen through beams that differ between the                  component's and the sidelobe's position and over the band).",
+                images.name,
+                grew.cycle,
+                crate::run::tables::short_number(before.peak_residual),
+                crate::run::tables::short_number(grew.peak_residual),
+            ))
+        }
+        MajorStop::Threshold | MajorStop::CycleCap | MajorStop::NothingLeft => None,
+    }
 }

@@ -26,7 +26,8 @@ impl<B: VoltageBeam + ?Sized> KernelAProjection<'_, B> {
     /// The spectral moments of the sensitivity, W_k(l, m) = Σ w · x^k · A_grid · A_data / Σ w
     /// for k = 0 … `n_moments` − 1, with x = (ν − ν0)/ν0 the Taylor variable of each sample's
     /// channel about `ref_freq_hz` (ν0) and the beams as in [`Self::sensitivity_image`]
-    /// (W_0 is the sensitivity image).
+    /// (W_0 is the sensitivity image). Built from [`Self::channel_sensitivities`]:
+    /// W_k = Σ_c w_c x_c^k W_c / Σ_c w_c.
     ///
     /// They are what a point source at (l, m) contributes to the Taylor-weighted residual
     /// images through this operator: a source with Taylor coefficients I_s gives
@@ -41,6 +42,30 @@ impl<B: VoltageBeam + ?Sized> KernelAProjection<'_, B> {
         n_moments: usize,
         ref_freq_hz: f64,
     ) -> Result<Vec<Array2<f64>>, ImagingError> {
+        if n_moments == 0 || !(ref_freq_hz.is_finite() && ref_freq_hz > 0.0) {
+            return Err(ImagingError::Parameter {
+                name: "sensitivity moments",
+                value: format!("n_moments {n_moments}, reference frequency {ref_freq_hz} Hz"),
+                why: "needs at least one moment and a positive reference frequency",
+            });
+        }
+        let channels = self.channel_sensitivities(vis, weights)?;
+        Ok(channels.moments(&vis.frequencies_hz, ref_freq_hz, n_moments))
+    }
+
+    /// The sensitivity of each channel, W_c(l, m) = Σ_{samples of c} w · A_grid · A_data /
+    /// Σ_{samples of c} w over the unflagged samples of both hands (beams as in
+    /// [`Self::sensitivity_image`]), with the channels' weight sums w_c. A channel without
+    /// unflagged weight has an all-zero image and w_c = 0.
+    ///
+    /// A source of flux S_c in channel c at (l, m) adds w_c W_c S_c / Σ w to every Taylor-weighted
+    /// residual image there (times the Taylor factor of c): this is the per-channel gain the
+    /// multi-term A-projection runner divides out of its model before prediction.
+    pub fn channel_sensitivities(
+        &self,
+        vis: &VisSet,
+        weights: &Array3<f64>,
+    ) -> Result<ChannelSensitivities, ImagingError> {
         vis.validate()?;
         if weights.shape() != vis.data.shape() {
             return Err(ImagingError::Shape {
@@ -49,47 +74,32 @@ impl<B: VoltageBeam + ?Sized> KernelAProjection<'_, B> {
                 expected: vis.data.shape().to_vec(),
             });
         }
-        if n_moments == 0 || !(ref_freq_hz.is_finite() && ref_freq_hz > 0.0) {
-            return Err(ImagingError::Parameter {
-                name: "sensitivity moments",
-                value: format!("n_moments {n_moments}, reference frequency {ref_freq_hz} Hz"),
-                why: "needs at least one moment and a positive reference frequency",
-            });
-        }
         let bins = self.bins_of_rows(vis)?;
         let layout = &self.layout;
+        let n_chan = vis.n_channels();
         let n_slots = layout.n_bins * layout.n_groups * 2;
-        // sums[slot * n_moments + k] = Σ w x^k over the samples of (bin, group, hand).
-        let mut sums = vec![0.0; n_slots * n_moments];
-        let powers: Vec<Vec<f64>> = vis
-            .frequencies_hz
-            .iter()
-            .map(|&f| (0..n_moments).map(|k| taylor_weight(f, ref_freq_hz, k)).collect())
-            .collect();
+        // sums[slot * n_chan + c] = Σ w over the samples of channel c in (bin, group, hand).
+        let mut sums = vec![0.0; n_slots * n_chan];
         for (r, &bin) in bins.iter().enumerate() {
-            for c in 0..vis.n_channels() {
+            for c in 0..n_chan {
                 let g = layout.group_of_channel[c];
                 for (p, corr) in vis.correlations.iter().enumerate() {
                     if !vis.flags[[r, c, p]] {
                         let h = if corr.receptor() == Pol::R { 0 } else { 1 };
                         let slot = (bin * layout.n_groups + g) * 2 + h;
-                        let w = weights[[r, c, p]];
-                        for (k, x_k) in powers[c].iter().enumerate() {
-                            sums[slot * n_moments + k] += w * x_k;
-                        }
+                        sums[slot * n_chan + c] += weights[[r, c, p]];
                     }
                 }
             }
         }
         let geometry = self.geometry();
-        let mut out = vec![Array2::<f64>::zeros((geometry.ny, geometry.nx)); n_moments];
-        let mut total = 0.0;
+        let mut images = vec![Array2::<f64>::zeros((geometry.ny, geometry.nx)); n_chan];
+        let mut channel_weights = vec![0.0; n_chan];
         for slot in 0..n_slots {
-            let slot_sums = &sums[slot * n_moments..(slot + 1) * n_moments];
-            if slot_sums[0] == 0.0 {
+            let slot_sums = &sums[slot * n_chan..(slot + 1) * n_chan];
+            if slot_sums.iter().all(|&s| s == 0.0) {
                 continue;
             }
-            total += slot_sums[0];
             let (bin, g, pol) =
                 (slot / (2 * layout.n_groups), (slot / 2) % layout.n_groups, Pol::BOTH[slot % 2]);
             let fwd = a_screen(self.beam, geometry, bin, layout.forward_freqs[g], pol);
@@ -98,10 +108,18 @@ impl<B: VoltageBeam + ?Sized> KernelAProjection<'_, B> {
             } else {
                 fwd.clone()
             };
-            for (image, &sum_w) in out.iter_mut().zip(slot_sums) {
-                Zip::from(image).and(&fwd).and(&grd).for_each(|o, &a, &b| *o += sum_w * a * b);
+            for (c, &sum_w) in slot_sums.iter().enumerate() {
+                if sum_w == 0.0 {
+                    continue;
+                }
+                channel_weights[c] += sum_w;
+                Zip::from(&mut images[c])
+                    .and(&fwd)
+                    .and(&grd)
+                    .for_each(|o, &a, &b| *o += sum_w * a * b);
             }
         }
+        let total: f64 = channel_weights.iter().sum();
         if !(total > 0.0 && total.is_finite()) {
             return Err(ImagingError::Parameter {
                 name: "imaging weights",
@@ -109,9 +127,46 @@ impl<B: VoltageBeam + ?Sized> KernelAProjection<'_, B> {
                 why: "the unflagged weights must have a positive, finite sum",
             });
         }
-        for image in &mut out {
-            *image /= total;
+        for (image, &w_c) in images.iter_mut().zip(&channel_weights) {
+            if w_c > 0.0 {
+                *image /= w_c;
+            }
         }
-        Ok(out)
+        Ok(ChannelSensitivities { images, weights: channel_weights })
+    }
+}
+
+/// Per-channel sensitivity images and weight sums ([`KernelAProjection::channel_sensitivities`]).
+#[derive(Clone, Debug)]
+pub struct ChannelSensitivities {
+    /// W_c(l, m), one `[ny, nx]` image per channel.
+    pub images: Vec<Array2<f64>>,
+    /// w_c: the unflagged imaging weights of channel c summed over rows and both hands.
+    pub weights: Vec<f64>,
+}
+
+impl ChannelSensitivities {
+    /// The spectral moments W_k = Σ_c w_c x_c^k W_c / Σ_c w_c, k = 0 … `n_moments` − 1, with
+    /// x_c = (ν_c − ν0)/ν0 for the channel frequencies `frequencies_hz` and ν0 = `ref_freq_hz`
+    /// (see [`KernelAProjection::sensitivity_moments`]). The caller passes valid arguments
+    /// (one frequency per channel, the weights' sum positive).
+    pub fn moments(
+        &self,
+        frequencies_hz: &[f64],
+        ref_freq_hz: f64,
+        n_moments: usize,
+    ) -> Vec<Array2<f64>> {
+        let total: f64 = self.weights.iter().sum();
+        let dim = self.images.first().map_or((0, 0), |im| im.dim());
+        let mut out = vec![Array2::<f64>::zeros(dim); n_moments];
+        for ((image, &w_c), &f) in self.images.iter().zip(&self.weights).zip(frequencies_hz) {
+            if w_c == 0.0 {
+                continue;
+            }
+            for (k, moment) in out.iter_mut().enumerate() {
+                moment.scaled_add(w_c * taylor_weight(f, ref_freq_hz, k) / total, image);
+            }
+        }
+        out
     }
 }

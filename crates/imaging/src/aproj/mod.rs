@@ -24,6 +24,7 @@ pub use kernel_operator::{
     kernel_table_bytes, KernelAProjection, KernelAProjectionParams, KernelInterpolation,
     KernelTableEstimate, KernelView,
 };
+pub use kernel_sensitivity::ChannelSensitivities;
 pub use kernel_table::kernel_beam_half_width_rad;
 pub use operator::{AProjection, AProjectionParams, ConjugateFrequency};
 pub use screens::screen_cache_bytes;
