@@ -45,6 +45,7 @@ mod aproj;
 mod direct;
 mod dirty;
 mod error;
+#[cfg(test)]
 mod fft2;
 mod gridder;
 mod kernel;
@@ -52,6 +53,7 @@ mod kernel_poly;
 mod operator;
 mod params;
 mod plan;
+mod plane_fft;
 mod quadrature;
 mod weighting;
 

@@ -1,12 +1,12 @@
 use crate::error::ImagingError;
-use crate::fft2::Fft2;
 use crate::kernel::EsKernel;
 use crate::kernel_poly::PolyKernel;
 use crate::params::{GridderParams, WRange, WTerm};
+use crate::plane_fft::FftPlan;
 use beamfloor_core::ImageGeometry;
 use ndarray::Array2;
 use rayon::prelude::*;
-use rustfft::FftDirection;
+use rustfft::FftPlanner;
 
 /// Grid upsampling factor σ the kernel rule is made for (Barnett et al. 2019 use σ = 2).
 pub const UPSAMPLING: f64 = 2.0;
@@ -47,9 +47,11 @@ impl WPlanes {
 /// Pixels with l² + m² ≥ 1 (beyond the horizon) are set to zero.
 ///
 /// Cost and memory: every sample is spread onto W planes (W³ kernel products with w-stacking,
-/// W² without), and each plane costs one padded FFT per output image. Gridding keeps one padded
-/// complex grid (16 · pad_nx · pad_ny bytes) per output image per rayon thread, summed after
-/// each plane; degridding keeps one per input image.
+/// W² without), and each plane that holds samples costs one pruned 2-D FFT per output image
+/// (only the grid rows with data and the image's columns are transformed: about half a full
+/// FFT). Gridding keeps one padded complex grid (16 · pad_nx · pad_ny bytes) per output image,
+/// shared by all threads (each owns bands of grid rows); degridding keeps one per input image
+/// plus nx · pad_ny complex values of scratch. Results do not depend on the thread count.
 #[derive(Clone, Debug)]
 pub struct GridPlan {
     pub(crate) geometry: ImageGeometry,
@@ -59,8 +61,12 @@ pub struct GridPlan {
     pub(crate) poly: PolyKernel,
     pub(crate) pad_nx: usize,
     pub(crate) pad_ny: usize,
-    pub(crate) fft_inverse: Fft2,
-    pub(crate) fft_forward: Fft2,
+    /// 1-D transforms along x (length pad_nx) and y (length pad_ny), inverse (+i, gridding)
+    /// and forward (−i, degridding); see the pruned 2-D passes in `plane_fft`.
+    pub(crate) fft_x_inverse: FftPlan,
+    pub(crate) fft_y_inverse: FftPlan,
+    pub(crate) fft_x_forward: FftPlan,
+    pub(crate) fft_y_forward: FftPlan,
     /// 1 / (ψ̂_x ψ̂_y ψ̂_w) per pixel `[iy][ix]`; zero beyond the horizon.
     pub(crate) inverse_correction: Array2<f64>,
     /// n − 1 per pixel `[iy][ix]` (zero beyond the horizon or when w is ignored).
@@ -160,6 +166,7 @@ impl GridPlan {
                     *v = 1.0 / (cx[ix] * cy[iy] * cw);
                 }
             });
+        let mut planner = FftPlanner::new();
         Ok(Self {
             geometry,
             params: *params,
@@ -167,8 +174,10 @@ impl GridPlan {
             kernel,
             pad_nx,
             pad_ny,
-            fft_inverse: Fft2::new(pad_nx, pad_ny, FftDirection::Inverse),
-            fft_forward: Fft2::new(pad_nx, pad_ny, FftDirection::Forward),
+            fft_x_inverse: FftPlan(planner.plan_fft_inverse(pad_nx)),
+            fft_y_inverse: FftPlan(planner.plan_fft_inverse(pad_ny)),
+            fft_x_forward: FftPlan(planner.plan_fft_forward(pad_nx)),
+            fft_y_forward: FftPlan(planner.plan_fft_forward(pad_ny)),
             inverse_correction,
             n_minus_1,
             planes,

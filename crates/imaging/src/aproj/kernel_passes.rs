@@ -7,12 +7,12 @@ use super::kernel_table::KernelTable;
 use crate::error::ImagingError;
 use crate::operator::{check_degrid_args, check_grid_args, GridOutput, ImagingOperator};
 use crate::params::w_range_of;
+use crate::plane_fft::Screens;
 use beamfloor_core::{ImageGeometry, Pol, VoltageBeam, SPEED_OF_LIGHT_M_PER_S};
 use beamfloor_predict::VisSet;
 use ndarray::{Array2, Array3, ArrayView3};
 use num_complex::Complex64;
 use rayon::prelude::*;
-use std::f64::consts::PI;
 
 const ZERO: Complex64 = Complex64 { re: 0.0, im: 0.0 };
 /// Grid rows per gridding band (the unit of parallel work; fixed, so results do not depend on
@@ -113,29 +113,18 @@ impl<B: VoltageBeam + ?Sized> KernelAProjection<'_, B> {
         }
     }
 
-    /// Per-pixel factor of plane `p`: the correction times exp(sign 2πi w_p (n − 1)).
-    fn screen(&self, p: usize, sign: f64) -> Vec<Complex64> {
-        match self.plan.planes {
-            None => self.correction.iter().map(|&c| Complex64::new(c, 0.0)).collect(),
-            Some(planes) => {
-                let wp = planes.w0 + p as f64 * planes.dw;
-                let x = self.plan.n_minus_1.as_slice().expect("plan arrays are contiguous");
-                self.correction
-                    .par_iter()
-                    .zip(x.par_iter())
-                    .map(|(&c, &x)| Complex64::from_polar(c, sign * 2.0 * PI * wp * x))
-                    .collect()
+    /// Per plane, the padded-grid rows that the footprints of the sites touching it cover.
+    fn plane_rows(&self, sites: &[Site], spans: &[(usize, usize)]) -> Vec<Vec<bool>> {
+        let py = self.plan.pad_ny as i64;
+        let mut rows = vec![vec![false; self.plan.pad_ny]; self.plan.n_w_planes()];
+        for (s, &(lo, count)) in sites.iter().zip(spans) {
+            for plane in &mut rows[lo..lo + count] {
+                for j in 0..s.support as i64 {
+                    plane[(s.y0 + j).rem_euclid(py) as usize] = true;
+                }
             }
         }
-    }
-
-    /// Offset into the padded grid of image pixel (ix, iy).
-    #[inline]
-    fn pixel_offset(&self, ix: usize, iy: usize) -> usize {
-        let g = self.plan.geometry;
-        let gx = (ix as i64 - (g.nx / 2) as i64).rem_euclid(self.plan.pad_nx as i64) as usize;
-        let gy = (iy as i64 - (g.ny / 2) as i64).rem_euclid(self.plan.pad_ny as i64) as usize;
-        gy * self.plan.pad_nx + gx
+        rows
     }
 
     fn check_w(&self, vis: &VisSet) -> Result<(), ImagingError> {
@@ -317,17 +306,19 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
         }
         let sites = self.sites(vis, &bins, Side::Gridding);
         let (spans, buckets) = self.buckets(&sites);
+        let plane_rows = self.plane_rows(&sites, &spans);
         let (px, py) = (self.plan.pad_nx, self.plan.pad_ny);
         let n_bands = py.div_ceil(BAND_ROWS);
         let (nc, np) = (vis.n_channels(), vis.n_correlations());
         let hands: Vec<usize> = vis.correlations.iter().map(|c| hand(c.receptor())).collect();
         let simd = RowSimd::detect();
         let window = self.window();
-        let mut scratch = vec![ZERO; px * py];
         let batch = self.batch(outputs.len());
         for first in (0..outputs.len()).step_by(batch) {
             let outs = &outputs[first..(first + batch).min(outputs.len())];
             let n_out = outs.len();
+            let mut screens = Screens::new(&self.plan, &self.correction, 1.0);
+            let mut images_t = vec![vec![0.0; g.nx * g.ny]; n_out];
             // Slot-major ring: grid of plane p, output o at ring[(p mod W) · n_out + o].
             let mut ring = vec![vec![ZERO; px * py]; window * n_out];
             let mut touched = vec![false; window];
@@ -438,19 +429,16 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
                     continue;
                 }
                 touched[slot] = false;
-                let screen = self.screen(p, 1.0);
-                for (o, image) in images[first..first + n_out].iter_mut().enumerate() {
+                let screen = screens.plane(p);
+                for (o, image_t) in images_t.iter_mut().enumerate() {
                     let grid = &mut ring[slot * n_out + o];
-                    self.plan.fft_inverse.process(grid, &mut scratch);
-                    let img = image.as_slice_mut().expect("fresh array is contiguous");
-                    let grid_ref = &*grid;
-                    img.par_chunks_mut(g.nx).enumerate().for_each(|(iy, line)| {
-                        for (ix, v) in line.iter_mut().enumerate() {
-                            *v += (grid_ref[self.pixel_offset(ix, iy)] * screen[iy * g.nx + ix]).re;
-                        }
-                    });
-                    grid.par_iter_mut().for_each(|v| *v = ZERO);
+                    // Leaves the grid zero again for plane p + W.
+                    self.plan.add_plane_to_image(grid, &plane_rows[p], screen, image_t);
                 }
+            }
+            for (image, image_t) in images[first..first + n_out].iter_mut().zip(&images_t) {
+                let img = image.as_slice_mut().expect("fresh array is contiguous");
+                self.plan.add_untransposed(image_t, img);
             }
         }
         Ok(images)
@@ -485,17 +473,26 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
         }
         let (px, py) = (self.plan.pad_nx, self.plan.pad_ny);
         let nx = self.plan.geometry.nx;
+        let plane_rows = self.plane_rows(&sites, &spans);
+        let mut columns = vec![ZERO; nx * py];
         let hands: Vec<usize> = vis.correlations.iter().map(|c| hand(c.receptor())).collect();
         let simd = RowSimd::detect();
         let window = self.window();
         let n_planes = self.plan.n_w_planes();
-        let mut scratch = vec![ZERO; px * py];
         let batch = self.batch(images.len());
         let max_s = sites.iter().map(|s| s.support).max().unwrap_or(0);
         for first in (0..images.len()).step_by(batch) {
             let imgs = &images[first..(first + batch).min(images.len())];
             let factors = &channel_factors[first..first + imgs.len()];
             let n_img = imgs.len();
+            let imgs_t: Vec<Vec<f64>> = imgs
+                .iter()
+                .map(|im| {
+                    let im = im.as_standard_layout();
+                    self.plan.transposed(im.as_slice().expect("standard layout is contiguous"))
+                })
+                .collect();
+            let mut screens = Screens::new(&self.plan, &self.correction, -1.0);
             let mut ring = vec![vec![ZERO; px * py]; window * n_img];
             let mut holds = vec![usize::MAX; window];
             for (p, bucket) in buckets.iter().enumerate() {
@@ -503,21 +500,17 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
                     continue;
                 }
                 let last = bucket.iter().map(|&i| p + spans[i].1).max().unwrap_or(p).min(n_planes);
-                for q in p..last {
+                for (q, rows) in plane_rows.iter().enumerate().take(last).skip(p) {
                     let slot = q % window;
                     if holds[slot] == q {
                         continue;
                     }
                     holds[slot] = q;
-                    let screen = self.screen(q, -1.0);
-                    for (t, image) in imgs.iter().enumerate() {
+                    // Planes are filled in increasing order (a slot's next plane is q + W).
+                    let screen = screens.plane(q);
+                    for (t, image_t) in imgs_t.iter().enumerate() {
                         let grid = &mut ring[slot * n_img + t];
-                        grid.par_iter_mut().for_each(|v| *v = ZERO);
-                        let img = image.as_standard_layout();
-                        for (k, (&v, &s)) in img.iter().zip(&screen).enumerate() {
-                            grid[self.pixel_offset(k % nx, k / nx)] = s * v;
-                        }
-                        self.plan.fft_forward.process(grid, &mut scratch);
+                        self.plan.plane_from_image(image_t, screen, rows, &mut columns, grid);
                     }
                 }
                 let ring = &ring;
@@ -525,7 +518,8 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
                     .par_chunks(DEGRID_SITES)
                     .flat_map_iter(|chunk| {
                         let mut krow_scratch = vec![ZERO; 2 * max_s];
-                        let mut acc = vec![ZERO; n_img * np];
+                        // acc[(q · n_img + t) · np + k]: plane q of the span, image t, hand k.
+                        let mut acc = vec![ZERO; window * n_img * np];
                         chunk
                             .iter()
                             .map(|&i| {
@@ -534,20 +528,22 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
                                 let n = s.support;
                                 let x0 = s.x0.rem_euclid(px as i64) as usize;
                                 let n1 = n.min(px - x0);
-                                let mut total = [ZERO; 2];
-                                for q in 0..spans[i].1 {
-                                    let kw = self.plane_weight(s.w, p + q);
-                                    let slot = (p + q) % window;
-                                    acc.iter_mut().for_each(|a| *a = ZERO);
-                                    for j in 0..n {
-                                        let krows =
-                                            self.kernel_rows(simd, s, &hands, j, &mut krow_scratch);
-                                        let (head, tail) = (
-                                            [&krows[0][..n1], &krows[1][..n1]],
-                                            [&krows[0][n1..], &krows[1][n1..]],
-                                        );
-                                        let y = (s.y0 + j as i64).rem_euclid(py as i64) as usize;
-                                        for (t, a) in acc.chunks_mut(np).enumerate() {
+                                let count = spans[i].1;
+                                let acc = &mut acc[..count * n_img * np];
+                                acc.iter_mut().for_each(|a| *a = ZERO);
+                                // Each kernel row is interpolated once and read against every
+                                // plane and image of the sample.
+                                for j in 0..n {
+                                    let krows =
+                                        self.kernel_rows(simd, s, &hands, j, &mut krow_scratch);
+                                    let (head, tail) = (
+                                        [&krows[0][..n1], &krows[1][..n1]],
+                                        [&krows[0][n1..], &krows[1][n1..]],
+                                    );
+                                    let y = (s.y0 + j as i64).rem_euclid(py as i64) as usize;
+                                    for (q, acc_q) in acc.chunks_mut(n_img * np).enumerate() {
+                                        let slot = (p + q) % window;
+                                        for (t, a) in acc_q.chunks_mut(np).enumerate() {
                                             let line =
                                                 &ring[slot * n_img + t][y * px..(y + 1) * px];
                                             dot_rows(simd, &line[x0..x0 + n1], &head[..np], a);
@@ -556,8 +552,12 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
                                             }
                                         }
                                     }
+                                }
+                                let mut total = [ZERO; 2];
+                                for (q, acc_q) in acc.chunks(n_img * np).enumerate() {
+                                    let kw = self.plane_weight(s.w, p + q);
                                     for (k, tot) in total.iter_mut().enumerate().take(np) {
-                                        let sum: Complex64 = acc
+                                        let sum: Complex64 = acc_q
                                             .chunks(np)
                                             .zip(factors)
                                             .map(|(a, f)| a[k] * f[c])

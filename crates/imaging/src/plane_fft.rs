@@ -1,0 +1,401 @@
+//! Pruned 2-D transforms between one padded w-plane grid and the image, and the per-plane
+//! phase screens, shared by [`GridPlan`] and [`crate::KernelAProjection`].
+//!
+//! The padded grid is σ ≈ 2 times the image along each axis, and the samples cover only the
+//! rows of the grid their footprints touch. So, for grid → image (gridding), only the touched
+//! rows need a transform along x, and along y only the nx columns that land on image pixels
+//! (about half) — the other outputs are cut away by the grid correction anyway. For image →
+//! grid (degridding) the image fills only nx columns before the transform along y, and only the
+//! rows the samples will read need a transform along x. Both directions then cost about
+//! (f + 1/2)/2 of a full 2-D FFT (f the fraction of rows with data) and need no transposes of
+//! the whole grid: columns are gathered in small blocks.
+//!
+//! Every transform of a row or column is done whole by one task, so the results do not depend
+//! on the thread count. The reference is the unpruned [`crate::fft2::Fft2`] followed by the
+//! pixel extraction (tests below).
+use crate::plan::GridPlan;
+use num_complex::Complex64;
+use rayon::prelude::*;
+use rustfft::Fft;
+use std::f64::consts::PI;
+use std::sync::Arc;
+
+const ZERO: Complex64 = Complex64 { re: 0.0, im: 0.0 };
+/// Image columns per task of the column pass (one buffer of `COLUMNS` × pad_ny).
+const COLUMNS: usize = 8;
+/// Grid rows per task of the row pass of `plane_from_image` (one gather of `ROWS` rows).
+const ROWS: usize = 8;
+/// Screens are recomputed exactly every this many planes (in between they advance by a
+/// multiplication, whose rounding grows by about 1e-16 per step).
+const SCREEN_RESEED: usize = 16;
+
+/// A planned 1-D transform (a shareable rustfft plan with a `Debug` that names its length).
+#[derive(Clone)]
+pub(crate) struct FftPlan(pub Arc<dyn Fft<f64>>);
+
+impl std::fmt::Debug for FftPlan {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(f, "FftPlan({}, {:?})", self.0.len(), self.0.fft_direction())
+    }
+}
+
+impl std::ops::Deref for FftPlan {
+    type Target = dyn Fft<f64>;
+    fn deref(&self) -> &Self::Target {
+        &*self.0
+    }
+}
+
+impl GridPlan {
+    /// Padded-grid index along x of image column `ix` (pixel index minus centre, wrapped).
+    #[inline]
+    pub(crate) fn grid_x(&self, ix: usize) -> usize {
+        let nx = self.geometry.nx;
+        (ix + self.pad_nx - nx / 2) % self.pad_nx
+    }
+
+    /// Grid → image for one plane: inverse-transform the rows of `grid` marked in `rows` (the
+    /// others must be zero), then the image columns, and add Re(result · screen) to `image_t`.
+    /// `image_t` and `screen_t` are transposed images (`[ix][iy]`, length nx · ny). On return
+    /// `grid` is all zero again (ready for the next plane).
+    pub(crate) fn add_plane_to_image(
+        &self,
+        grid: &mut [Complex64],
+        rows: &[bool],
+        screen_t: &[Complex64],
+        image_t: &mut [f64],
+    ) {
+        let (px, py) = (self.pad_nx, self.pad_ny);
+        let ny = self.geometry.ny;
+        debug_assert_eq!(grid.len(), px * py);
+        debug_assert_eq!(rows.len(), py);
+        let fft_x = &self.fft_x_inverse;
+        grid.par_chunks_mut(px).zip(rows.par_iter()).filter(|(_, &t)| t).for_each_init(
+            || vec![ZERO; fft_x.get_inplace_scratch_len()],
+            |scratch, (line, _)| fft_x.process_with_scratch(line, scratch),
+        );
+        let fft_y = &self.fft_y_inverse;
+        let grid_ref = &*grid;
+        let touched: Vec<usize> = (0..py).filter(|&y| rows[y]).collect();
+        image_t
+            .par_chunks_mut(COLUMNS * ny)
+            .zip(screen_t.par_chunks(COLUMNS * ny))
+            .enumerate()
+            .for_each_init(
+                || (vec![ZERO; COLUMNS * py], vec![ZERO; fft_y.get_inplace_scratch_len()]),
+                |(buf, scratch), (block, (out, screen))| {
+                    let ix0 = block * COLUMNS;
+                    let n_cols = out.len() / ny;
+                    let gx: Vec<usize> = (ix0..ix0 + n_cols).map(|ix| self.grid_x(ix)).collect();
+                    let buf = &mut buf[..n_cols * py];
+                    buf.iter_mut().for_each(|v| *v = ZERO);
+                    for &y in &touched {
+                        let line = &grid_ref[y * px..(y + 1) * px];
+                        for (c, &x) in gx.iter().enumerate() {
+                            buf[c * py + y] = line[x];
+                        }
+                    }
+                    fft_y.process_with_scratch(buf, scratch);
+                    for c in 0..n_cols {
+                        let col = &buf[c * py..(c + 1) * py];
+                        let (o, s) =
+                            (&mut out[c * ny..(c + 1) * ny], &screen[c * ny..(c + 1) * ny]);
+                        // iy < ny/2 sits at the top of the column (negative index), the rest at 0...
+                        let h = ny / 2;
+                        let top = &col[py - h..];
+                        let bottom = &col[..ny - h];
+                        for ((v, s), g) in o.iter_mut().zip(s).zip(top.iter().chain(bottom)) {
+                            *v += g.re * s.re - g.im * s.im;
+                        }
+                    }
+                },
+            );
+        grid.par_chunks_mut(px).zip(rows.par_iter()).filter(|(_, &t)| t).for_each(|(line, _)| {
+            line.iter_mut().for_each(|v| *v = ZERO);
+        });
+    }
+
+    /// Image → grid for one plane: the forward transform of `image_t · screen_t` (transposed
+    /// images `[ix][iy]`) placed on the padded grid, computed only for the grid rows marked in
+    /// `rows`; the other rows of `grid` are left as they were. `columns` is scratch of
+    /// nx · pad_ny values.
+    pub(crate) fn plane_from_image(
+        &self,
+        image_t: &[f64],
+        screen_t: &[Complex64],
+        rows: &[bool],
+        columns: &mut [Complex64],
+        grid: &mut [Complex64],
+    ) {
+        let (px, py) = (self.pad_nx, self.pad_ny);
+        let (nx, ny) = (self.geometry.nx, self.geometry.ny);
+        debug_assert_eq!(columns.len(), nx * py);
+        let fft_y = &self.fft_y_forward;
+        let h = ny / 2;
+        columns
+            .par_chunks_mut(COLUMNS * py)
+            .zip(image_t.par_chunks(COLUMNS * ny).zip(screen_t.par_chunks(COLUMNS * ny)))
+            .for_each_init(
+                || vec![ZERO; fft_y.get_inplace_scratch_len()],
+                |scratch, (buf, (img, screen))| {
+                    let n_cols = img.len() / ny;
+                    for c in 0..n_cols {
+                        let col = &mut buf[c * py..(c + 1) * py];
+                        let (im, s) = (&img[c * ny..(c + 1) * ny], &screen[c * ny..(c + 1) * ny]);
+                        col[ny - h..py - h].iter_mut().for_each(|v| *v = ZERO);
+                        let (bottom, top) = col.split_at_mut(py - h);
+                        for ((g, &v), &s) in
+                            top.iter_mut().chain(&mut bottom[..ny - h]).zip(im).zip(s)
+                        {
+                            *g = s * v;
+                        }
+                    }
+                    fft_y.process_with_scratch(buf, scratch);
+                },
+            );
+        let columns = &*columns;
+        let gx: Vec<usize> = (0..nx).map(|ix| self.grid_x(ix)).collect();
+        let fft_x = &self.fft_x_forward;
+        grid.par_chunks_mut(ROWS * px).enumerate().for_each_init(
+            || vec![ZERO; fft_x.get_inplace_scratch_len()],
+            |scratch, (block, lines)| {
+                let y0 = block * ROWS;
+                let n_rows = lines.len() / px;
+                if !rows[y0..y0 + n_rows].iter().any(|&t| t) {
+                    return;
+                }
+                for (r, line) in lines.chunks_mut(px).enumerate() {
+                    if rows[y0 + r] {
+                        line.iter_mut().for_each(|v| *v = ZERO);
+                    }
+                }
+                for (ix, &x) in gx.iter().enumerate() {
+                    let col = &columns[ix * py + y0..ix * py + y0 + n_rows];
+                    for (r, &v) in col.iter().enumerate() {
+                        if rows[y0 + r] {
+                            lines[r * px + x] = v;
+                        }
+                    }
+                }
+                for (r, line) in lines.chunks_mut(px).enumerate() {
+                    if rows[y0 + r] {
+                        fft_x.process_with_scratch(line, scratch);
+                    }
+                }
+            },
+        );
+    }
+
+    /// Transposed copy (`[ix][iy]`) of a row-major `[iy][ix]` image.
+    pub(crate) fn transposed(&self, image: &[f64]) -> Vec<f64> {
+        let (nx, ny) = (self.geometry.nx, self.geometry.ny);
+        let mut out = vec![0.0; nx * ny];
+        out.par_chunks_mut(ny).enumerate().for_each(|(ix, col)| {
+            for (iy, v) in col.iter_mut().enumerate() {
+                *v = image[iy * nx + ix];
+            }
+        });
+        out
+    }
+
+    /// Transposed copy of a row-major complex image (test helper).
+    #[cfg(test)]
+    pub(crate) fn transposed_complex(&self, image: &[Complex64]) -> Vec<Complex64> {
+        let (nx, ny) = (self.geometry.nx, self.geometry.ny);
+        (0..nx * ny).map(|k| image[(k % ny) * nx + k / ny]).collect()
+    }
+
+    /// Row-major `[iy][ix]` image of a transposed one, added into `image`.
+    pub(crate) fn add_untransposed(&self, image_t: &[f64], image: &mut [f64]) {
+        let (nx, ny) = (self.geometry.nx, self.geometry.ny);
+        image.par_chunks_mut(nx).enumerate().for_each(|(iy, line)| {
+            for (ix, v) in line.iter_mut().enumerate() {
+                *v += image_t[ix * ny + iy];
+            }
+        });
+    }
+}
+
+/// The per-plane factors c(x) · exp(sign · 2πi w_p (n − 1)) of a plan, plane by plane in
+/// increasing order, in transposed layout `[ix][iy]`: exact (one `from_polar` per pixel) every
+/// [`SCREEN_RESEED`] planes, and in between advanced by the constant per-pixel phasor
+/// exp(sign · 2πi Δw (n − 1)).
+pub(crate) struct Screens {
+    correction_t: Vec<f64>,
+    x_t: Vec<f64>,
+    step: Vec<Complex64>,
+    current: Vec<Complex64>,
+    sign: f64,
+    w0: f64,
+    dw: f64,
+    /// Plane `current` holds (None before the first).
+    at: Option<usize>,
+    /// Whether w is stacked (else the screen is the real correction for the only plane).
+    stacked: bool,
+}
+
+impl Screens {
+    /// Screens of `plan` with per-pixel correction `correction` (`[iy][ix]`) and phase sign
+    /// `sign` (+1 for gridding, −1 for degridding).
+    pub(crate) fn new(plan: &GridPlan, correction: &[f64], sign: f64) -> Self {
+        let correction_t = plan.transposed(correction);
+        let (x_t, step, w0, dw, stacked) = match plan.planes {
+            Some(p) => {
+                let x = plan.n_minus_1.as_slice().expect("plan arrays are contiguous");
+                let x_t = plan.transposed(x);
+                let step = x_t
+                    .par_iter()
+                    .map(|&x| Complex64::from_polar(1.0, sign * 2.0 * PI * p.dw * x))
+                    .collect();
+                (x_t, step, p.w0, p.dw, true)
+            }
+            None => (Vec::new(), Vec::new(), 0.0, 0.0, false),
+        };
+        let current = if stacked {
+            vec![ZERO; correction_t.len()]
+        } else {
+            correction_t.iter().map(|&c| Complex64::new(c, 0.0)).collect()
+        };
+        Self { correction_t, x_t, step, current, sign, w0, dw, at: None, stacked }
+    }
+
+    /// The screen of plane `p` (planes must be asked for in increasing order).
+    pub(crate) fn plane(&mut self, p: usize) -> &[Complex64] {
+        if !self.stacked {
+            return &self.current;
+        }
+        match self.at {
+            Some(q) if q == p => {}
+            Some(q) if q < p && p - q < SCREEN_RESEED && p / SCREEN_RESEED == q / SCREEN_RESEED => {
+                for _ in q..p {
+                    self.current
+                        .par_iter_mut()
+                        .zip(self.step.par_iter())
+                        .for_each(|(c, s)| *c *= s);
+                }
+            }
+            _ => {
+                let wp = self.w0 + p as f64 * self.dw;
+                let sign = self.sign;
+                self.current
+                    .par_iter_mut()
+                    .zip(self.correction_t.par_iter().zip(self.x_t.par_iter()))
+                    .for_each(|(v, (&c, &x))| {
+                        *v = Complex64::from_polar(c, sign * 2.0 * PI * wp * x)
+                    });
+            }
+        }
+        self.at = Some(p);
+        &self.current
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::fft2::Fft2;
+    use crate::params::{GridderParams, WRange, WTerm};
+    use beamfloor_core::ImageGeometry;
+    use rustfft::FftDirection;
+
+    fn plan(nx: usize, ny: usize, w_term: WTerm) -> GridPlan {
+        let g = ImageGeometry::new(nx, ny, 0.004);
+        let params = GridderParams { epsilon: 1e-6, w_term };
+        GridPlan::new(g, &params, WRange::new(-1500.0, 2500.0).unwrap()).unwrap()
+    }
+
+    fn value(k: usize, seed: f64) -> Complex64 {
+        Complex64::new((seed + 0.37 * k as f64).sin(), (1.3 * seed + 0.113 * k as f64).cos())
+    }
+
+    /// Offset into the padded grid of pixel (ix, iy) (the definition: index − centre, wrapped).
+    fn offset(p: &GridPlan, ix: usize, iy: usize) -> usize {
+        let (nx, ny) = (p.geometry.nx as i64, p.geometry.ny as i64);
+        let gx = (ix as i64 - nx / 2).rem_euclid(p.pad_nx as i64) as usize;
+        let gy = (iy as i64 - ny / 2).rem_euclid(p.pad_ny as i64) as usize;
+        gy * p.pad_nx + gx
+    }
+
+    #[test]
+    fn pruned_transforms_match_the_full_2d_fft() {
+        // Reference: the unpruned 2-D FFT (itself checked against the DFT definition in fft2)
+        // followed by picking the image pixels. Both compute the same sums with different
+        // groupings, so they agree to rounding: 1e-12 of values of size ~ pad (sums of O(1)
+        // terms) is a few ulps of headroom per butterfly stage.
+        for (nx, ny) in [(10, 12), (16, 16), (14, 8)] {
+            let p = plan(nx, ny, WTerm::Ignore);
+            let (px, py) = (p.pad_nx, p.pad_ny);
+            let rows: Vec<bool> = (0..py).map(|y| y % 3 != 1).collect();
+            let grid0: Vec<Complex64> = (0..px * py)
+                .map(|k| if rows[k / px] { value(k, 0.3) } else { Complex64::new(0.0, 0.0) })
+                .collect();
+            let screen: Vec<Complex64> = (0..nx * ny).map(|k| value(k, 2.1)).collect();
+            // Grid → image.
+            let mut full = grid0.clone();
+            let mut scratch = vec![Complex64::new(0.0, 0.0); px * py];
+            Fft2::new(px, py, FftDirection::Inverse).process(&mut full, &mut scratch);
+            let mut grid = grid0.clone();
+            let screen_t = p.transposed_complex(&screen);
+            let mut image_t = vec![0.5; nx * ny];
+            p.add_plane_to_image(&mut grid, &rows, &screen_t, &mut image_t);
+            assert!(grid.iter().all(|v| *v == Complex64::new(0.0, 0.0)), "grid left non-zero");
+            for iy in 0..ny {
+                for ix in 0..nx {
+                    let want = 0.5 + (full[offset(&p, ix, iy)] * screen[iy * nx + ix]).re;
+                    assert!((image_t[ix * ny + iy] - want).abs() < 1e-12, "{nx}x{ny} ({ix},{iy})");
+                }
+            }
+            // Image → grid.
+            let image: Vec<f64> = (0..nx * ny).map(|k| (0.7 * k as f64).sin()).collect();
+            let mut full = vec![Complex64::new(0.0, 0.0); px * py];
+            for iy in 0..ny {
+                for ix in 0..nx {
+                    full[offset(&p, ix, iy)] = screen[iy * nx + ix] * image[iy * nx + ix];
+                }
+            }
+            Fft2::new(px, py, FftDirection::Forward).process(&mut full, &mut scratch);
+            let sentinel = Complex64::new(7.0, -7.0);
+            let mut grid = vec![sentinel; px * py];
+            let mut columns = vec![Complex64::new(0.0, 0.0); nx * py];
+            p.plane_from_image(&p.transposed(&image), &screen_t, &rows, &mut columns, &mut grid);
+            for y in 0..py {
+                for x in 0..px {
+                    let (got, k) = (grid[y * px + x], y * px + x);
+                    if rows[y] {
+                        assert!((got - full[k]).norm() < 1e-12, "{nx}x{ny} ({x},{y})");
+                    } else {
+                        assert_eq!(got, sentinel, "row {y} is not asked for");
+                    }
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn advanced_screens_match_direct_evaluation() {
+        // Reference: c · exp(±2πi w_p (n − 1)) evaluated directly per plane (the definition).
+        // The recurrence's rounding grows by ~1e-16 per step and is reset every 16 planes;
+        // 1e-13 is far above that and far below the ε ≥ 1e-14 · (pad size) the gridder needs.
+        let p = plan(16, 12, WTerm::Stack);
+        let planes = p.planes.unwrap();
+        assert!(planes.count > 20, "{} planes", planes.count);
+        let corr = p.inverse_correction.as_slice().unwrap();
+        let x = p.n_minus_1.as_slice().unwrap();
+        for sign in [1.0, -1.0] {
+            let mut screens = Screens::new(&p, corr, sign);
+            // Every plane, then with gaps.
+            let order: Vec<usize> = (0..planes.count).filter(|q| q % 5 != 3 || *q < 12).collect();
+            for &q in &order {
+                let got = screens.plane(q).to_vec();
+                let wp = planes.w0 + q as f64 * planes.dw;
+                for iy in 0..12 {
+                    for ix in 0..16 {
+                        let k = iy * 16 + ix;
+                        let want = Complex64::from_polar(corr[k], sign * 2.0 * PI * wp * x[k]);
+                        assert!((got[ix * 12 + iy] - want).norm() < 1e-13 * corr[k].max(1.0));
+                    }
+                }
+            }
+        }
+    }
+}
