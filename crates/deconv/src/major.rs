@@ -197,7 +197,7 @@ pub fn run_major_cycles<I: ResidualImager + ?Sized>(
     let mut cycle = 0usize;
     let keep_best = params.on_divergence == OnDivergence::KeepBest;
     // With KeepBest: the model, residuals and component count before the last minor cycle.
-    let mut before: Option<(Vec<Array2<f64>>, Vec<Array2<f64>>, usize)> = None;
+    let mut before: Option<Snapshot> = None;
     let stop = loop {
         let peak = peak_abs(&residuals[0], mask);
         let report =
@@ -255,6 +255,10 @@ pub fn run_major_cycles<I: ResidualImager + ?Sized>(
     };
     Ok(Deconvolved { model, residuals, cycles, iterations, stop })
 }
+
+/// Model, residuals and component count saved before a minor cycle (for
+/// [`OnDivergence::KeepBest`]).
+type Snapshot = (Vec<Array2<f64>>, Vec<Array2<f64>>, usize);
 
 /// Validate the imager's answer: N finite images of the geometry's shape.
 fn checked(

@@ -197,11 +197,27 @@ fn sweep_band(
                     for q in 0..nl {
                         for i in 0..n {
                             let trow = &mut planes[q * n + i][off + x0..off + x1];
-                            for (j, &a) in c.a.iter().enumerate() {
+                            let krow = |j: usize| {
                                 let kern = &plan.cross[plan.cross_index(c.s, q, i + j)];
-                                let krow = &kern[krow0..krow0 + (x1 - x0)];
-                                for (t, k) in trow.iter_mut().zip(krow) {
-                                    *t -= a * k;
+                                &kern[krow0..krow0 + (x1 - x0)]
+                            };
+                            // One pass per term of the component; for N = 2 and 3 the passes
+                            // are fused into one loop that does, per pixel, the same
+                            // subtractions in the same order (so the same bits) with the row
+                            // loaded and stored once.
+                            match n {
+                                2 => subtract_fused(trow, [krow(0), krow(1)], [c.a[0], c.a[1]]),
+                                3 => subtract_fused(
+                                    trow,
+                                    [krow(0), krow(1), krow(2)],
+                                    [c.a[0], c.a[1], c.a[2]],
+                                ),
+                                _ => {
+                                    for (j, &a) in c.a.iter().enumerate() {
+                                        for (t, k) in trow.iter_mut().zip(krow(j)) {
+                                            *t -= a * k;
+                                        }
+                                    }
                                 }
                             }
                         }
@@ -255,22 +271,73 @@ fn search_row(
         }
         return;
     }
-    let mut r = [0.0f64; MAX_TERMS];
-    for x in level.x0..level.x1 {
-        if mrow.is_some_and(|m| !m[x]) {
+    match n {
+        2 => search_row_n::<2>(planes, off, row_start, level, mrow, best),
+        3 => search_row_n::<3>(planes, off, row_start, level, mrow, best),
+        _ => {
+            let mut r = [0.0f64; MAX_TERMS];
+            for x in level.x0..level.x1 {
+                if mrow.is_some_and(|m| !m[x]) {
+                    continue;
+                }
+                for (ri, plane) in r.iter_mut().zip(planes) {
+                    *ri = plane[off + x];
+                }
+                let mut c = 0.0;
+                for i in 0..n {
+                    let row = &inv[i * n..i * n + n];
+                    let a: f64 = row.iter().zip(&r[..n]).map(|(h, x)| h * x).sum();
+                    c += a * r[i];
+                }
+                if c > best.0 {
+                    *best = (c, row_start + x);
+                }
+            }
+        }
+    }
+}
+
+/// `t -= a_0 k_0; t -= a_1 k_1; …` per pixel, in that order.
+#[inline]
+fn subtract_fused<const N: usize>(trow: &mut [f64], krows: [&[f64]; N], a: [f64; N]) {
+    let len = trow.len();
+    let krows: [&[f64]; N] = std::array::from_fn(|j| &krows[j][..len]);
+    for (x, t) in trow.iter_mut().enumerate() {
+        let mut v = *t;
+        for j in 0..N {
+            v -= a[j] * krows[j][x];
+        }
+        *t = v;
+    }
+}
+
+/// [`search_row`] for a term count `N` known at compile time (the common 2 and 3): the same
+/// arithmetic in the same order, so the same bits, with the loops over terms unrolled and the
+/// planes' rows sliced once.
+#[inline]
+fn search_row_n<const N: usize>(
+    planes: &[&mut [f64]],
+    off: usize,
+    row_start: usize,
+    level: &LevelSearch,
+    mrow: Option<&[bool]>,
+    best: &mut (f64, usize),
+) {
+    let (x0, x1) = (level.x0, level.x1);
+    let rows: [&[f64]; N] = std::array::from_fn(|i| &planes[i][off + x0..off + x1]);
+    let inv: [[f64; N]; N] = std::array::from_fn(|i| std::array::from_fn(|j| level.inv[i * N + j]));
+    for k in 0..x1 - x0 {
+        if mrow.is_some_and(|m| !m[x0 + k]) {
             continue;
         }
-        for (ri, plane) in r.iter_mut().zip(planes) {
-            *ri = plane[off + x];
-        }
+        let r: [f64; N] = std::array::from_fn(|i| rows[i][k]);
         let mut c = 0.0;
-        for i in 0..n {
-            let row = &inv[i * n..i * n + n];
-            let a: f64 = row.iter().zip(&r[..n]).map(|(h, x)| h * x).sum();
+        for i in 0..N {
+            let a: f64 = inv[i].iter().zip(&r).map(|(h, x)| h * x).sum();
             c += a * r[i];
         }
         if c > best.0 {
-            *best = (c, row_start + x);
+            *best = (c, row_start + x0 + k);
         }
     }
 }
