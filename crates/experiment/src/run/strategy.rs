@@ -286,7 +286,9 @@ pub fn image_strategy(
 pub(crate) fn stop_description(images: &StrategyImages) -> Option<String> {
     match images.stop {
         MajorStop::IterationCap => Some(format!(
-            "{}: CLEAN used its whole component budget (max_iterations) before reaching its              threshold; what is left is either too faint to reach in that budget or a floor the              model cannot represent (compare the quick estimate).",
+            "{}: CLEAN used its whole component budget (max_iterations) before reaching its \
+             threshold; what is left is either too faint to reach in that budget or a floor \
+             the model cannot represent (compare the quick estimate).",
             images.name
         )),
         MajorStop::ResidualGrew => {
@@ -300,7 +302,11 @@ pub(crate) fn stop_description(images: &StrategyImages) -> Option<String> {
                 ));
             }
             Some(format!(
-                "{}: CLEAN stopped when the peak residual grew in major cycle {} ({} → {}                  Jy/beam); the images are those of the cycle before, the best it reached. The                  minor cycle's PSF model was too far from this strategy's operator there (for                  A-projection: PSF sidelobes seen through beams that differ between the                  component's and the sidelobe's position and over the band).",
+                "{}: CLEAN stopped when the peak residual grew in major cycle {} ({} → {} \
+                 Jy/beam); the images are those of the cycle before, the best it reached. The \
+                 minor cycle's PSF model was too far from this strategy's operator there (for \
+                 A-projection: PSF sidelobes seen through beams that differ between the \
+                 component's and the sidelobe's position and over the band).",
                 images.name,
                 grew.cycle,
                 crate::run::tables::short_number(before.peak_residual),
