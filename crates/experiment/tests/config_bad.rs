@@ -235,6 +235,11 @@ const CASES: &[Case] = &[
         fragments: &["observation.hour_angle_start_h = 3.0: every time sample of the track from hour angle 3 h to 5 h", "(the highest reaches 8.0 deg)", "above the limit only for hour angles within ±3.26 h"],
     },
     Case {
+        file: "kernel_tables_too_large",
+        at: "37:14",
+        fragments: &["strategy[0].pa_bin_deg = 0.1: the A-kernel tables of strategy `a` would take 143.86 GiB: 11488 tables (718 PA bins of pa_bin_deg = 0.1 over the track's 230.5° of parallactic angle × 16 per bin: 8 channels × 2 hands)", "strategy[0].kernel_oversampling = 128", "more than the A-projection operator's cap of 4.00 GiB", "they would fit with strategy[0].pa_bin_deg ≥ 12.81 (at most 19 PA bins), or strategy[0].kernel_oversampling ≤ 20"],
+    },
+    Case {
         file: "kernel_off_grid",
         at: "31:17",
         fragments: &["imaging.image_size_px = 64: the gridding kernel (7 cells wide for imaging.accuracy = 0.000001)", "beyond its edge at 64: its taps would wrap to the opposite side of the uv-plane; need image_size_px ≥"],
@@ -403,4 +408,25 @@ fn edits_of_the_minimal_config_point_at_the_right_key() {
         }
     }
     assert!(failures.is_empty(), "{}", failures.join("\n"));
+}
+
+/// A run of a config whose A-kernel tables cannot fit is refused by the preflight, before the
+/// visibilities are simulated or anything is imaged: the run folder holds no visibility set.
+/// (The preflight itself takes well under a second here: it probes the kernels of one PA bin.)
+#[test]
+fn oversized_kernel_tables_are_refused_before_the_run_simulates() {
+    struct Quiet;
+    impl beamfloor_experiment::run::RunObserver for Quiet {}
+    let path = bad_dir().join("kernel_tables_too_large.toml");
+    let config = load_config(&path).unwrap();
+    let out = tempfile::tempdir().unwrap();
+    let start = std::time::Instant::now();
+    let err =
+        beamfloor_experiment::run::run_experiment(&config, Some(&path), out.path(), &mut Quiet)
+            .map(|_| ())
+            .unwrap_err();
+    println!("refused after {:.2} s: {err}", start.elapsed().as_secs_f64());
+    assert!(matches!(err, beamfloor_experiment::run::RunError::Config(_)), "{err}");
+    assert!(err.to_string().contains("strategy[0].kernel_oversampling ≤ 20"), "{err}");
+    assert!(!out.path().join("visibilities").exists(), "simulated before refusing");
 }

@@ -126,6 +126,28 @@ pub fn build_a_operator<'b>(
     binned: &'b BinnedBeam,
     freqs_hz: &[f64],
 ) -> Result<KernelAProjection<'b, DishBeam>, RunError> {
+    let params = a_operator_params(config, index, binned, freqs_hz)?;
+    KernelAProjection::new(
+        geometry,
+        &binned.beam,
+        binned.bin_of_time.clone(),
+        freqs_hz.to_vec(),
+        w_range,
+        params,
+    )
+    .map_err(|source| RunError::Imaging { strategy: config.strategy[index].name.clone(), source })
+}
+
+/// The parameters [`build_a_operator`] gives the operator of strategy `index`: the imaging
+/// accuracy with w-stacking, the strategy's `kernel_oversampling`, and the conjugate frequencies
+/// of wideband A-projection (fitted to `binned`'s aperture for `"fitted"`). The preflight
+/// estimates the kernel tables' memory from the same parameters.
+pub fn a_operator_params(
+    config: &Config,
+    index: usize,
+    binned: &BinnedBeam,
+    freqs_hz: &[f64],
+) -> Result<KernelAProjectionParams, RunError> {
     let strategy = &config.strategy[index];
     let name = strategy.name.clone();
     let imaging = |source| RunError::Imaging { strategy: name.clone(), source };
@@ -150,7 +172,7 @@ pub fn build_a_operator<'b>(
         (Gridding::WidebandA, _) => ConjugateFrequency::Reciprocal { ref_freq_hz },
         _ => ConjugateFrequency::Same,
     };
-    let params = KernelAProjectionParams {
+    Ok(KernelAProjectionParams {
         gridder: GridderParams { epsilon: config.imaging.accuracy, w_term: WTerm::Stack },
         oversampling: strategy.kernel_oversampling as usize,
         // The imaging beam is built without per-antenna effects, so antennas are identical by
@@ -158,16 +180,7 @@ pub fn build_a_operator<'b>(
         assume_identical_antennas: false,
         conjugate,
         ..KernelAProjectionParams::default()
-    };
-    KernelAProjection::new(
-        geometry,
-        &binned.beam,
-        binned.bin_of_time.clone(),
-        freqs_hz.to_vec(),
-        w_range,
-        params,
-    )
-    .map_err(imaging)
+    })
 }
 
 #[cfg(test)]

@@ -66,8 +66,9 @@ pub use noise::image_noise_jy;
 pub use operator::{build_operator, check_strategies};
 pub use pbcor::{beam_validity, divide_beam_taylor};
 pub use preflight::{
-    available_memory_bytes, estimate_memory, preflight, preflight_with_memory, MemoryEstimate,
-    Preflight, PreflightReport, StrategyMemory,
+    available_memory_bytes, estimate_memory, kernel_table_memory, preflight, preflight_with_memory,
+    KernelTableMemory, MemoryEstimate, Preflight, PreflightReport, StrategyMemory,
+    PROBE_ALL_BINS_MAX_TABLES,
 };
 pub use quick_estimate::{QuickEstimate, SymmetrizedBeam};
 pub use residual::OperatorResiduals;

@@ -4,9 +4,12 @@
 //!
 //! The checks, in order (each failure is a located config error naming the key to change, its
 //! value and what would be valid):
-//! 1. Memory: visibilities, imaging grids, images, PSFs and A-screens (see [`MemoryEstimate`])
-//!    against `MemAvailable` of `/proc/meminfo`, from the config's counts alone, so that a run
-//!    that cannot fit is refused before even the observation's rows are built.
+//! 1. Memory: visibilities, imaging grids, images and PSFs (see [`MemoryEstimate`]) against
+//!    `MemAvailable` of `/proc/meminfo`, from the config's counts alone, so that a run that
+//!    cannot fit is refused before even the observation's rows are built. Once the observation
+//!    exists (its parallactic angles set the PA bins), the A-kernel tables of every A-projection
+//!    strategy are added from the imaging crate's own estimate ([`kernel_table_memory`]) and
+//!    checked again, against the machine and against the operator's table cap.
 //! 2. The track: at least one time sample must have the phase centre above the elevation limit.
 //! 3. The cell against the longest projected baseline at the top of the band (Nyquist):
 //!    Δθ ≤ 1 / (2 u_max) (Thompson, Moran & Swenson, §5.2: the image is the Fourier transform of
@@ -23,12 +26,21 @@ use std::fmt::Write;
 use std::path::Path;
 
 use beamfloor_array::{ArrayError, Observation};
-use beamfloor_imaging::{AProjectionParams, EsKernel, UPSAMPLING};
+use beamfloor_core::ImageGeometry;
+use beamfloor_imaging::{EsKernel, UPSAMPLING};
 use beamfloor_sky::Shape;
 
 use super::RunError;
 use crate::config::{locate_problems, Config, Gridding, Layout, Problem, SourcePosition};
 use crate::scenario::{Scenario, ScenarioError};
+
+mod memory;
+
+pub use memory::{
+    estimate_memory, kernel_table_memory, KernelTableMemory, MemoryEstimate, StrategyMemory,
+    PROBE_ALL_BINS_MAX_TABLES,
+};
+use memory::{kernel_tables_problem, memory_problem};
 
 const ARCSEC_PER_RAD: f64 = 180.0 * 3600.0 / std::f64::consts::PI;
 const ARCMIN_PER_RAD: f64 = ARCSEC_PER_RAD / 60.0;
@@ -37,56 +49,6 @@ const GIB: f64 = 1024.0 * 1024.0 * 1024.0;
 const EDGE_MARGIN_BEAMS: f64 = 3.0;
 /// Pixels of margin between a source and the image edge, at least.
 const EDGE_MARGIN_PIXELS: f64 = 8.0;
-
-/// What a run will hold in memory at its peak, bytes, by part.
-///
-/// Model (from how the runner and the imaging crate allocate): the visibility set (complex128
-/// data, f64 weight, bool flag per sample and hand; uvw and indices per row) plus the runner's
-/// working copies per sample — the imaging weights (f64), the weighted PSF values (complex128)
-/// and the residual visibilities of a major cycle (two complex128); then, for the strategy that
-/// needs most (strategies run one after another): one padded complex grid per gridded output per
-/// rayon thread (the spectral PSFs, 2N − 1 outputs on a grid padded from twice the image size,
-/// are the largest pass), the PSFs and their scale-convolved copies for the minor cycle
-/// (L(L+1)/2 · (2N − 1) PSF-sized images for L scales), the Taylor images (model, residual,
-/// restored, primary-beam corrected, spectral maps, truth and error images), and for
-/// A-projection the cached A-screens (one f64 image per PA bin, channel and hand, twice for
-/// wideband; the imaging crate caps the cache).
-#[derive(Debug, Clone, PartialEq)]
-pub struct MemoryEstimate {
-    /// Rows (baselines × time samples), channels, and hands per sample.
-    pub rows: u64,
-    /// Channels.
-    pub channels: u64,
-    /// Visibility set and the runner's per-sample working copies, bytes.
-    pub visibilities_bytes: u64,
-    /// Per strategy: name, grids, images (incl. PSFs), A-screens, bytes.
-    pub strategies: Vec<StrategyMemory>,
-    /// Visibilities plus the largest strategy, bytes.
-    pub total_bytes: u64,
-    /// Rayon threads the grids are counted for.
-    pub threads: usize,
-}
-
-/// The imaging memory of one strategy, bytes.
-#[derive(Debug, Clone, PartialEq)]
-pub struct StrategyMemory {
-    /// The strategy's name.
-    pub name: String,
-    /// Padded complex grids (one per output per thread, largest pass).
-    pub grids_bytes: u64,
-    /// PSFs, their scale-convolved copies, and the Taylor images.
-    pub images_bytes: u64,
-    /// A-projection screen cache (0 for plain and w).
-    pub screens_bytes: u64,
-}
-
-impl StrategyMemory {
-    /// Everything this strategy holds.
-    pub fn total_bytes(&self) -> u64 {
-        self.grids_bytes.saturating_add(self.images_bytes).saturating_add(self.screens_bytes)
-    }
-}
-
 /// The numbers a preflight found, for `beamfloor check` and the run's log.
 #[derive(Debug, Clone)]
 pub struct PreflightReport {
@@ -133,6 +95,21 @@ impl PreflightReport {
                 None => String::new(),
             }
         );
+        for part in &m.strategies {
+            if let Some(t) = &part.kernel_tables {
+                let _ = writeln!(
+                    s,
+                    "A-kernels    strategy \"{}\": {:.3} GiB of tables ({} tables on {} PA bins, supports {}..={} cells; the operator's cap is {:.2} GiB)",
+                    part.name,
+                    t.estimate.bytes as f64 / GIB,
+                    t.estimate.n_tables,
+                    t.n_pa_bins,
+                    t.estimate.min_support,
+                    t.estimate.max_support,
+                    t.max_table_bytes as f64 / GIB
+                );
+            }
+        }
         s
     }
 }
@@ -160,7 +137,7 @@ pub fn preflight_with_memory(
 ) -> Result<Preflight, RunError> {
     let threads = rayon::current_num_threads();
     let antennas = antenna_count(config, config_path);
-    let memory = estimate_memory(config, antennas, threads);
+    let mut memory = estimate_memory(config, antennas, threads);
     if let Some(available) = available_bytes {
         if memory.total_bytes > available {
             return Err(located(
@@ -179,10 +156,35 @@ pub fn preflight_with_memory(
         }
         Err(e) => return Err(e.into()),
     };
-    let observation = &scenario.observation;
-    let mut problems = Vec::new();
-    let u_max = observation.max_uv_distance_wavelengths();
+    // The A-kernel tables, now that the PA bins exist: against the operator's cap and against
+    // what the machine has left beside everything else the run holds.
     let cell_rad = (config.imaging.cell_arcsec / 3600.0).to_radians();
+    let n_px = config.imaging.image_size_px as usize;
+    let geometry = ImageGeometry::new(n_px, n_px, cell_rad);
+    for (index, strategy) in config.strategy.iter().enumerate() {
+        if matches!(strategy.gridding, Gridding::A | Gridding::WidebandA) {
+            let tables = kernel_table_memory(config, index, &scenario.observation, geometry)?;
+            memory.strategies[index].kernel_tables_bytes =
+                u64::try_from(tables.estimate.bytes).unwrap_or(u64::MAX);
+            memory.strategies[index].kernel_tables = Some(tables);
+        }
+    }
+    memory.update_total();
+    let table_problems: Vec<Problem> = memory
+        .strategies
+        .iter()
+        .enumerate()
+        .filter_map(|(index, part)| {
+            let tables = part.kernel_tables.as_ref()?;
+            let rest = memory
+                .visibilities_bytes
+                .saturating_add(part.total_bytes() - part.kernel_tables_bytes);
+            kernel_tables_problem(config, index, tables, rest, available_bytes)
+        })
+        .collect();
+    let observation = &scenario.observation;
+    let mut problems = table_problems;
+    let u_max = observation.max_uv_distance_wavelengths();
     let nyquist_rad = if u_max > 0.0 { 0.5 / u_max } else { f64::INFINITY };
     if cell_rad > nyquist_rad {
         problems.push(nyquist_problem(config, observation, u_max, cell_rad));
@@ -209,74 +211,6 @@ pub fn available_memory_bytes() -> Option<u64> {
     let line = text.lines().find(|l| l.starts_with("MemAvailable:"))?;
     let kib: u64 = line.split_whitespace().nth(1)?.parse().ok()?;
     kib.checked_mul(1024)
-}
-
-/// The memory a run of `config` needs (see [`MemoryEstimate`]), from the config's counts alone;
-/// `antennas` is None when a layout file cannot be read (counted as 0 antennas).
-pub fn estimate_memory(config: &Config, antennas: Option<u64>, threads: usize) -> MemoryEstimate {
-    let a = antennas.unwrap_or(0);
-    let times = config.observation.time_samples();
-    let channels = u64::from(config.observation.channels);
-    let rows = (a.saturating_mul(a.saturating_sub(1)) / 2).saturating_mul(times);
-    let samples = rows.saturating_mul(channels).saturating_mul(2);
-    // Set: 16 + 8 + 1 bytes per sample, uvw (3 f64) and three u32 indices per row. Working
-    // copies: weights 8, PSF values 16, residual and predicted visibilities 2 × 16 per sample.
-    let visibilities_bytes = samples
-        .saturating_mul(25 + 8 + 16 + 32)
-        .saturating_add(rows.saturating_mul(3 * 8 + 3 * 4 + 48));
-    // Products of counts can pass 2^64 for absurd configs: count in f64, which saturates to
-    // u64::MAX on the way back instead of wrapping.
-    let n = f64::from(config.imaging.image_size_px);
-    let pad = smooth_size((UPSAMPLING * n).ceil() as u64) as f64;
-    let pad_psf = smooth_size((UPSAMPLING * 2.0 * n).ceil() as u64) as f64;
-    let t = threads.max(1) as f64;
-    let strategies = config
-        .strategy
-        .iter()
-        .map(|s| {
-            let terms = f64::from(s.taylor_terms());
-            let psfs = 2.0 * terms - 1.0;
-            let grids = (t * psfs * 16.0 * pad_psf * pad_psf).max(t * terms * 16.0 * pad * pad);
-            let scales =
-                s.scales_px.len().max(1) as f64 + f64::from(u8::from(!s.scales_px.contains(&0.0)));
-            let psf_images = (1.0 + scales * (scales + 1.0) / 2.0) * psfs * 4.0 * n * n * 8.0;
-            let taylor_images = (8.0 * terms + 8.0) * n * n * 8.0;
-            let screens = match s.gridding {
-                Gridding::A | Gridding::WidebandA => {
-                    let bins = parallactic_bins_upper_bound(config, s.pa_bin_deg) as f64;
-                    let sets = if s.gridding == Gridding::WidebandA { 2.0 } else { 1.0 };
-                    // As the imaging crate's `screen_cache_bytes`: one f64 image per bin, channel, hand.
-                    let needed = n * n * 8.0 * bins * channels as f64 * 2.0 * sets;
-                    needed.min(AProjectionParams::default().max_cache_bytes as f64)
-                }
-                _ => 0.0,
-            };
-            StrategyMemory {
-                name: s.name.clone(),
-                grids_bytes: grids as u64,
-                images_bytes: (psf_images + taylor_images) as u64,
-                screens_bytes: screens as u64,
-            }
-        })
-        .collect::<Vec<_>>();
-    let largest = strategies.iter().map(StrategyMemory::total_bytes).max().unwrap_or(0);
-    MemoryEstimate {
-        rows,
-        channels,
-        visibilities_bytes,
-        total_bytes: visibilities_bytes.saturating_add(largest),
-        strategies,
-        threads,
-    }
-}
-
-/// An upper bound on the parallactic-angle bins of a track: its PA range can be no more than a
-/// half turn per 12 h of hour angle near the zenith; bins of `bin_deg` over at most 360°.
-fn parallactic_bins_upper_bound(config: &Config, bin_deg: f64) -> u64 {
-    let o = &config.observation;
-    let span_deg = ((o.hour_angle_end_h - o.hour_angle_start_h) * 30.0).clamp(0.0, 360.0);
-    let bins = (span_deg / bin_deg.max(1e-3)).ceil() as u64 + 1;
-    bins.min(config.observation.time_samples().max(1))
 }
 
 /// The smallest 2^a 3^b 5^c ≥ n (the FFT sizes the imaging crate pads to).
@@ -340,52 +274,6 @@ fn locate(
 
 fn problem(key_path: impl Into<String>, value: impl ToString, allowed: String) -> Problem {
     Problem { key_path: key_path.into(), value: value.to_string(), allowed }
-}
-
-fn memory_problem(config: &Config, m: &MemoryEstimate, available: u64) -> Problem {
-    let largest = m.strategies.iter().max_by_key(|s| s.total_bytes());
-    let gib = |b: u64| b as f64 / GIB;
-    let mut parts = format!(
-        "visibilities {:.2} GiB ({} rows × {} channels × 2 hands, with working copies)",
-        gib(m.visibilities_bytes),
-        m.rows,
-        m.channels
-    );
-    if let Some(s) = largest {
-        let _ = write!(
-            parts,
-            "; strategy \"{}\" {:.2} GiB (grids {:.2} for {} threads, images and PSFs {:.2}, A-screens {:.2})",
-            s.name,
-            gib(s.total_bytes()),
-            gib(s.grids_bytes),
-            m.threads,
-            gib(s.images_bytes),
-            gib(s.screens_bytes)
-        );
-    }
-    let imaging_dominates = largest.is_some_and(|s| s.total_bytes() >= m.visibilities_bytes);
-    let (key, value, reduce) = if imaging_dominates {
-        (
-            "imaging.image_size_px",
-            config.imaging.image_size_px.to_string(),
-            "a smaller imaging.image_size_px (memory grows as its square), fewer Taylor terms or scales_px, or a wider pa_bin_deg",
-        )
-    } else {
-        (
-            "observation.integration_s",
-            config.observation.integration_s.to_string(),
-            "a longer observation.integration_s, fewer observation.channels or antennas, or a shorter track",
-        )
-    };
-    problem(
-        key,
-        value,
-        format!(
-            "the run would need about {:.2} GiB ({parts}) but this machine has {:.2} GiB available (MemAvailable): reduce it with {reduce}",
-            gib(m.total_bytes),
-            gib(available)
-        ),
-    )
 }
 
 fn track_problem(config: &Config, e: &ArrayError) -> Problem {
