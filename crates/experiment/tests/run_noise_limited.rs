@@ -10,11 +10,10 @@
 use std::path::{Path, PathBuf};
 
 use beamfloor_deconv::convolve_same;
-use beamfloor_experiment::run::{run_experiment, RunObserver};
+use beamfloor_experiment::run::{run_experiment, source_truths, RunObserver};
 use beamfloor_experiment::scenario::Scenario;
 use beamfloor_experiment::{load_config, Config};
-use beamfloor_metrics::{source_free_mask, MaskParams, RestoringBeam, SourceTruth};
-use beamfloor_sky::Shape;
+use beamfloor_metrics::{source_free_mask, MaskParams, RestoringBeam};
 use ndarray::{s, Array2};
 
 struct Quiet;
@@ -119,24 +118,9 @@ fn rms_scatter(config: &Config, config_path: &Path, strategy_dir: &Path) -> (f64
         position_angle_rad: beam.position_angle_rad,
     };
     let scenario = Scenario::build(config, Some(config_path)).unwrap();
-    let sources: Vec<SourceTruth> = scenario
-        .sky
-        .iter()
-        .map(|c| SourceTruth {
-            name: c.name.clone(),
-            l_rad: c.l,
-            m_rad: c.m,
-            flux_ref_jy: c.spectrum.flux_jy,
-            alpha_power_law: c.spectrum.alpha,
-            beta_power_law: c.spectrum.beta,
-            alpha_fit: f64::NAN,
-            beta_fit: f64::NAN,
-            extent_rad: match c.shape {
-                Shape::Point => 0.0,
-                Shape::Gaussian(g) => g.major_fwhm_rad,
-            },
-        })
-        .collect();
+    // Only positions and extents enter the mask; the spectral fit needs no real weights.
+    let freqs = &scenario.observation.channels.frequencies_hz;
+    let sources = source_truths(&scenario.sky, freqs, &vec![1.0; freqs.len()], 1).unwrap();
     // Nothing is blanked in this field (the beam stays above the cut-off over the whole image);
     // the pixel-count check against the runner's mask would catch it if that changed.
     let mask = source_free_mask(&geometry, &beam, &sources, &MaskParams::default(), None).unwrap();
