@@ -2,6 +2,8 @@
 //! plain and w strategies, noise on) writes every promised file, a page whose every link
 //! exists, parseable metrics, and the radiometer σ_img.
 
+mod common;
+
 use std::path::PathBuf;
 
 use beamfloor_experiment::run::{run_experiment, RunObserver};
@@ -13,21 +15,6 @@ impl RunObserver for Quiet {}
 
 fn small_config_path() -> PathBuf {
     PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("tests/run_small.toml")
-}
-
-/// Every `src="…"` and `href="…"` value of the page.
-fn references(html: &str) -> Vec<String> {
-    let mut out = Vec::new();
-    for key in ["src=\"", "href=\""] {
-        let mut rest = html;
-        while let Some(i) = rest.find(key) {
-            rest = &rest[i + key.len()..];
-            let end = rest.find('"').unwrap_or(rest.len());
-            out.push(rest[..end].to_string());
-            rest = &rest[end..];
-        }
-    }
-    out
 }
 
 /// The folder a crosscheck export goes to (same rule as the other crates' export tests).
@@ -91,10 +78,14 @@ fn small_run_writes_a_complete_folder() {
     assert_eq!(html.matches("<table>").count(), html.matches("</table>").count());
     assert!(!html.contains("<script") && !html.contains("http://") && !html.contains("https://"));
     assert!(html.contains("simulations"), "the page must carry the caution");
-    let refs = references(&html);
+    let refs = common::report_links::check_report_references(&out);
     assert!(refs.len() >= 10, "{refs:?}");
-    for r in refs {
-        assert!(out.join(&r).is_file(), "report.html references missing {r}");
+    // Every image the run folder holds is on the page.
+    for s in ["plain", "w"] {
+        for f in ["restored.png", "residual.png", "error.png"] {
+            let r = format!("strategies/{s}/{f}");
+            assert!(refs.contains(&r), "report.html does not show {r}: {refs:?}");
+        }
     }
 
     // metrics.json parses and holds one summary row per strategy with a finite floor.
@@ -167,4 +158,50 @@ fn a_projection_strategy_runs_beside_the_others_and_cube_is_refused() {
     let config = parse_config(&cube, "cube.toml").unwrap();
     let err = run_experiment(&config, None, out.path(), &mut Quiet).unwrap_err();
     assert!(err.is_bad_input() && err.to_string().contains("spectral"), "{err}");
+}
+
+/// The reference scanner itself, on a hand-written page with every quoting the HTML standard
+/// allows, character references, srcset candidates and CSS urls.
+#[test]
+fn report_reference_scanner_reads_every_attribute_form() {
+    let html = "<!DOCTYPE html><html><head><style>b { background: url('plots/a.png') }</style>\
+                </head><body><a HREF='x y.html'>x</a><img src=plots/b.png alt=\"b\">\
+                <img srcset=\"c.png 1x, d.png 2x\" src=\"e&amp;f.png\"><a href=\"#top\">t</a>\
+                <p style=\"background:url(g.png)\">p</p></body></html>";
+    let refs = common::report_links::references(html);
+    assert_eq!(
+        refs,
+        ["x y.html", "plots/b.png", "c.png", "d.png", "e&f.png", "#top", "g.png", "plots/a.png"]
+    );
+}
+
+/// The report check refuses what a browser offline could not show: a missing file, an empty
+/// file, a file that is not the PNG it claims to be, a remote resource, a path out of the folder.
+#[test]
+fn report_reference_check_finds_every_kind_of_broken_link() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(dir.path().join("empty.png"), b"").unwrap();
+    std::fs::write(dir.path().join("text.png"), b"not an image").unwrap();
+    std::fs::write(dir.path().join("ok.png"), b"\x89PNG\r\n\x1a\nrest").unwrap();
+    std::fs::write(
+        dir.path().join("report.html"),
+        "<html><body><img src=\"ok.png\"><img src=\"missing.png\"><img src=\"empty.png\">\
+         <img src=\"text.png\"><a href=\"https://example.org/x\">x</a>\
+         <img src=\"../outside.png\"></body></html>",
+    )
+    .unwrap();
+    let path = dir.path().to_path_buf();
+    let panic = std::panic::catch_unwind(|| common::report_links::check_report_references(&path))
+        .expect_err("a page with broken links must be refused");
+    let message = panic.downcast_ref::<String>().cloned().unwrap_or_default();
+    for expected in [
+        "missing.png: No such file",
+        "empty.png: empty file",
+        "text.png: not a PNG file",
+        "https://example.org/x: not a relative path",
+        "../outside.png: leaves the run folder",
+    ] {
+        assert!(message.contains(expected), "`{expected}` not in: {message}");
+    }
+    assert!(!message.contains("ok.png"), "{message}");
 }

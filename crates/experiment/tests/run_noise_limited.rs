@@ -7,6 +7,8 @@
 //! Radio Astronomy*, 3rd ed., §6.2), and the dirty image Σ w V e^{…} / Σ w turns it into
 //! σ_img = σ √(Σ w²) / Σ w at every pixel.
 
+mod common;
+
 use std::path::{Path, PathBuf};
 
 use beamfloor_deconv::convolve_same;
@@ -101,6 +103,12 @@ fn floors_match_the_radiometer_noise(path: &Path) {
         }
     }
     assert!(failures.is_empty(), "not within 5 % of σ_img: {failures:?}");
+    // The page of a run with A-projection strategies opens offline with every image present.
+    let refs = common::report_links::check_report_references(out.path());
+    for strategy in &summary.strategies {
+        let r = format!("strategies/{}/residual.png", strategy.name);
+        assert!(refs.contains(&r), "report.html does not show {r}");
+    }
 }
 
 /// Relative 1σ sampling scatter of the RMS of the noise over the runner's source-free mask,
