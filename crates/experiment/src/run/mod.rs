@@ -17,10 +17,16 @@
 //! ≈ W · I ⊗ PSF with the sensitivity W = Σ w A_grid A_data / Σ w. They deconvolve in the
 //! flat-noise frame: the major cycle hands the minor cycle residuals × g with g = 1/√W (zero where
 //! √W is below `pb_cutoff` of its peak), so the minor cycle sees ≈ √W · I ⊗ PSF (the PSF of the
-//! phase centre, from the plain w-stacking gridder) with bounded sidelobes, and its model × g is
-//! the sky that is degridded. Restored images × g are the sky frame; the flat-noise residual is
-//! their apparent frame for the floor (flat noise, sky weighted by ≈ P as in plain imaging), so
-//! floors compare with the other strategies.
+//! phase centre, from the plain w-stacking gridder) with bounded sidelobes, and it searches only
+//! the unblanked pixels. With one Taylor term its model × g is the sky that is degridded. With
+//! N ≥ 2 terms its model is the Taylor expansion of the *apparent* spectrum g · W_c · S_c (W_c the
+//! channel's sensitivity), predicted channel by channel as S_c = b_c / (g W_c) (see
+//! [`channel_model`]), so that every channel responds around a component as the spectral PSFs
+//! say. Restored images are turned into the sky frame by dividing out the Taylor terms of that
+//! gain g · W_c ([`pbcor::gain_taylor`], the same series division as average-beam imaging; × g
+//! for one term); the flat-noise residual is their apparent frame for the floor (flat noise, sky
+//! weighted by ≈ P as in plain imaging), so floors compare with the other strategies. A run whose
+//! residual grows stops with the best cycle's images and says so (`MajorStop::ResidualGrew`).
 //!
 //! Run folder:
 //! ```text
@@ -51,7 +57,6 @@ mod runner;
 mod stokes_v;
 mod strategy;
 mod tables;
-mod taylor_response;
 mod truth;
 
 pub use aproj::{binned_imaging_beam, build_a_operator, parallactic_angle_bins, BinnedBeam};

@@ -1,5 +1,6 @@
 //! Primary-beam correction of Taylor-term images by the averaged beam's own Taylor coefficients.
 
+use beamfloor_deconv::TermHessian;
 use ndarray::Array2;
 
 /// Divides apparent Taylor images I'_t (sky × beam) by the beam's Taylor coefficients P_t.
@@ -40,6 +41,30 @@ pub fn beam_validity(p0: &Array2<f64>, cutoff: f64) -> Array2<bool> {
     p0.mapv(|v| v.is_finite() && peak > 0.0 && v >= cutoff * peak)
 }
 
+/// The Taylor coefficients of an A-projection strategy's per-channel gain in the flat-noise
+/// frame, G_c = g · W_c (a sky flux S_c in channel c at a pixel appears there as G_c S_c, with
+/// W_c the channel's sensitivity and g = 1/√W_0), fitted over the channels with the imaging
+/// weights: G_t = g Σ_u (H⁻¹)_tu W_u for t < N, from the sensitivity's spectral moments
+/// W_u = Σ_c w_c x_c^u W_c / Σ w and the minor cycle's phase-centre Hessian H. Dividing the
+/// restored Taylor images by G_t ([`divide_beam_taylor`]) is the same correction average-beam
+/// imaging makes with its beam's Taylor terms; with one term it is × 1/√W_0 = × g.
+pub fn gain_taylor(
+    moments: &[Array2<f64>],
+    hessian: &TermHessian,
+    g: &Array2<f64>,
+) -> Vec<Array2<f64>> {
+    let n = hessian.nterms();
+    (0..n)
+        .map(|t| {
+            let mut out = Array2::<f64>::zeros(g.dim());
+            for u in 0..n {
+                out.scaled_add(hessian.inverse_get(t, u), &moments[u]);
+            }
+            out * g
+        })
+        .collect()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -63,5 +88,20 @@ mod tests {
             assert!((sky[t][[0, 0]] - a[t]).abs() < 1e-14, "term {t}: {}", sky[t][[0, 0]]);
             assert!(sky[t][[0, 1]].is_nan());
         }
+    }
+
+    /// A gain linear in x over three equally weighted channels (x = −0.2, 0, 0.2):
+    /// W_c = 0.5 + 0.4 x. Its weighted least-squares fit with two terms is exact, so
+    /// G = g · (0.5, 0.4) with g = 1/√W_0 = 1/√0.5 (moments and Hessian worked by hand:
+    /// W_0 = 0.5, W_1 = 0.4 · 0.08/3, H = [[1, 0], [0, 0.08/3]]).
+    #[test]
+    fn gain_taylor_fits_a_linear_gain_exactly() {
+        let m2 = 0.08 / 3.0;
+        let h = TermHessian::from_peaks(&[1.0, 0.0, m2], 2, 0).unwrap();
+        let moments = [Array2::from_elem((1, 1), 0.5), Array2::from_elem((1, 1), 0.4 * m2)];
+        let g = Array2::from_elem((1, 1), 1.0 / 0.5f64.sqrt());
+        let gain = gain_taylor(&moments, &h, &g);
+        assert!((gain[0][[0, 0]] - 0.5 * g[[0, 0]]).abs() < 1e-14, "{}", gain[0][[0, 0]]);
+        assert!((gain[1][[0, 0]] - 0.4 * g[[0, 0]]).abs() < 1e-14, "{}", gain[1][[0, 0]]);
     }
 }

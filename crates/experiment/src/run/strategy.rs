@@ -16,8 +16,7 @@ use num_complex::Complex64;
 use super::aproj::{binned_imaging_beam, build_a_operator, kernel_max_freq_hz};
 use super::channel_model::ChannelModel;
 use super::operator::build_operator;
-use super::pbcor::{beam_validity, divide_beam_taylor};
-use super::taylor_response::TaylorResponse;
+use super::pbcor::{beam_validity, divide_beam_taylor, gain_taylor};
 use super::RunError;
 use crate::config::{CleanThreshold, Config, Gridding};
 
@@ -106,10 +105,9 @@ pub fn image_strategy(
         (None, Some(p)) => p.as_ref(),
         (None, None) => unreachable!("one of the two operators is always built"),
     };
-    // Per-channel sensitivities W_c; their moments W_0 … W_{2N−2} (W_0 is the sensitivity
-    // image; the higher ones turn a multi-term model into sky Taylor terms, see
-    // `taylor_response`).
-    let n_moments = if n_terms >= 2 { 2 * n_terms - 1 } else { 1 };
+    // Per-channel sensitivities W_c and their moments W_0 … W_{N−1} (W_0 is the sensitivity
+    // image; with the others they give the Taylor terms of the gain the sky is divided by).
+    let n_moments = n_terms;
     let channel_sensitivity = match &a_operator {
         Some(a) => Some(a.channel_sensitivities(vis, weights).map_err(imaging)?),
         None => None,
@@ -168,18 +166,17 @@ pub fn image_strategy(
         ..MajorCycleParams::default()
     };
     // Multi-term A-projection: the minor cycle models the apparent spectrum (flat-noise frame),
-    // predicted channel by channel; the restored images become sky Taylor terms by g · T below.
-    let (channel_model, response) = match (&flat_noise_factor, &channel_sensitivity) {
+    // predicted channel by channel (see `channel_model`). Every A-projection strategy's images
+    // become the sky by dividing out the Taylor terms of its per-channel gain g · W_c.
+    let channel_model = match (&flat_noise_factor, &channel_sensitivity) {
         (Some(g), Some(channels)) if n_terms >= 2 => {
             let cutoff = sensitivity_cut.unwrap_or(0.0);
             let factors = (0..n_terms).map(|t| taylor.channel_weights(t, &vis.frequencies_hz));
-            (
-                Some(ChannelModel::new(&channels.images, g, cutoff, factors.collect())),
-                Some(TaylorResponse::new(&moments, plan.point_hessian(), &g.mapv(|f| f > 0.0))),
-            )
+            Some(ChannelModel::new(&channels.images, g, cutoff, factors.collect()))
         }
-        _ => (None, None),
+        _ => None,
     };
+    let gain = flat_noise_factor.as_ref().map(|g| gain_taylor(&moments, plan.point_hessian(), g));
     drop((moments, channel_sensitivity));
     let mut imager = super::residual::OperatorResiduals::new(operator, vis, weights, taylor);
     if let Some(g) = &flat_noise_factor {
@@ -204,30 +201,19 @@ pub fn image_strategy(
     // Plain and w gridding image the apparent sky; divide by the averaged beam's Taylor terms.
     let corrects_beam = matches!(strategy.gridding, Gridding::Plain | Gridding::W);
     let (restored_sky, residual_sky, validity) = match (beam_taylor, corrects_beam) {
-        // A-projection: the flat-noise frame × g = 1/√W is the sky; blank where g = 0.
-        _ if flat_noise_factor.is_some() => {
-            let g = flat_noise_factor
-                .clone()
-                .unwrap_or_else(|| Array2::ones((geometry.ny, geometry.nx)));
-            let to_sky = |images: &[Array2<f64>]| -> Vec<Array2<f64>> {
-                let images = match &response {
-                    Some(t) => t.apply(images),
-                    None => images.to_vec(),
-                };
-                images
-                    .iter()
-                    .map(|im| {
-                        let mut out = im * &g;
-                        out.zip_mut_with(&g, |v, &f| {
-                            if f == 0.0 {
-                                *v = f64::NAN
-                            }
-                        });
-                        out
-                    })
-                    .collect()
-            };
-            (to_sky(&restored.images), to_sky(&restored.residual_coefficients), g.mapv(|f| f > 0.0))
+        // A-projection: divide by the gain's Taylor terms (for one term: × g = 1/√W); blank
+        // where g = 0.
+        _ if gain.is_some() => {
+            let valid = flat_noise_factor.as_ref().map_or_else(
+                || Array2::from_elem((geometry.ny, geometry.nx), true),
+                |g| g.mapv(|f| f > 0.0),
+            );
+            let gain = gain.as_deref().unwrap_or_default();
+            (
+                divide_beam_taylor(&restored.images, gain, &valid),
+                divide_beam_taylor(&restored.residual_coefficients, gain, &valid),
+                valid,
+            )
         }
         (Some(p), true) => {
             let valid = beam_validity(&p[0], config.imaging.pb_cutoff);
@@ -255,11 +241,13 @@ pub fn image_strategy(
         None
     };
     // A-projection strategies deconvolve in the flat-noise frame; their model, stored in the sky
-    // frame, is model × g.
-    let model = match (&flat_noise_factor, &response) {
-        (Some(g), Some(t)) => t.apply(&result.model).iter().map(|m| m * g).collect(),
-        (Some(g), None) => result.model.iter().map(|m| m * g).collect(),
-        (None, _) => result.model,
+    // frame, is divided by the gain's Taylor terms like the restored images (zero where blank).
+    let model = match &gain {
+        Some(gain) => divide_beam_taylor(&result.model, gain, &validity)
+            .into_iter()
+            .map(|m| m.mapv(|v| if v.is_finite() { v } else { 0.0 }))
+            .collect(),
+        None => result.model,
     };
     let (residuals, restored_apparent) = (result.residuals, restored.images);
     Ok(StrategyImages {
