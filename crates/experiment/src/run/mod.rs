@@ -21,9 +21,9 @@
 //! the unblanked pixels. With one Taylor term its model × g is the sky that is degridded. With
 //! N ≥ 2 terms its model is the Taylor expansion of the *apparent* spectrum g · W_c · S_c (W_c the
 //! channel's sensitivity), predicted channel by channel as S_c = b_c / (g W_c) (see
-//! [`channel_model`]), so that every channel responds around a component as the spectral PSFs
+//! `channel_model`), so that every channel responds around a component as the spectral PSFs
 //! say. Restored images are turned into the sky frame by dividing out the Taylor terms of that
-//! gain g · W_c ([`pbcor::gain_taylor`], the same series division as average-beam imaging; × g
+//! gain g · W_c (`pbcor::gain_taylor`, the same series division as average-beam imaging; × g
 //! for one term); the flat-noise residual is their apparent frame for the floor (flat noise, sky
 //! weighted by ≈ P as in plain imaging), so floors compare with the other strategies. A run whose
 //! residual grows stops with the best cycle's images and says so (`MajorStop::ResidualGrew`).
