@@ -57,8 +57,8 @@ pub fn gain_taylor(
     (0..n)
         .map(|t| {
             let mut out = Array2::<f64>::zeros(g.dim());
-            for u in 0..n {
-                out.scaled_add(hessian.inverse_get(t, u), &moments[u]);
+            for (u, moment) in moments.iter().enumerate().take(n) {
+                out.scaled_add(hessian.inverse_get(t, u), moment);
             }
             out * g
         })
