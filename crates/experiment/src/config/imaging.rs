@@ -31,7 +31,11 @@ pub struct ImagingConfig {
     pub w_planes: Option<u32>,
     /// Strategies without A-projection divide their images by the averaged primary beam; pixels
     /// where that beam's power at the reference frequency falls below this fraction of its peak
-    /// are blanked (NaN), within (0, 1). Default: `0.05`.
+    /// are blanked (NaN). A-projection strategies blank where the square root of their
+    /// sensitivity falls below this fraction of its peak, and CLEAN places components only
+    /// inside that region: a bright source beyond it (e.g. in the first sidelobe with the
+    /// default) is never deconvolved by them and its sidelobes stay in their residual. Within
+    /// (0, 1). Default: `0.05`.
     #[serde(default = "default_pb_cutoff")]
     pub pb_cutoff: f64,
 }
