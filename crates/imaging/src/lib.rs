@@ -71,6 +71,6 @@ pub use error::ImagingError;
 pub use kernel::{EsKernel, MAX_EPSILON, MIN_EPSILON};
 pub use operator::{check_degrid_args, check_grid_args, GridOutput, ImagingOperator};
 pub use params::{GridderParams, WRange, WTerm};
-pub use plan::{GridPlan, UPSAMPLING};
+pub use plan::{good_fft_size, GridPlan, UPSAMPLING};
 pub use quadrature::gauss_legendre;
 pub use weighting::{imaging_weights, weight_density, Weighting};

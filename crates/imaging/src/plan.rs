@@ -221,8 +221,9 @@ impl GridPlan {
     }
 }
 
-/// Smallest n' ≥ n whose only prime factors are 2, 3 and 5 (fast FFT lengths), kept even.
-fn good_fft_size(n: usize) -> usize {
+/// Smallest n' ≥ n whose only prime factors are 2, 3 and 5 (fast FFT lengths), kept even: the
+/// padded grid size [`GridPlan`] uses for σ·n pixels (callers estimating memory use it too).
+pub fn good_fft_size(n: usize) -> usize {
     let mut m = n.max(2);
     loop {
         let mut k = m;

@@ -27,7 +27,7 @@ use std::path::Path;
 
 use beamfloor_array::{ArrayError, Observation};
 use beamfloor_core::ImageGeometry;
-use beamfloor_imaging::{EsKernel, UPSAMPLING};
+use beamfloor_imaging::{good_fft_size, EsKernel, UPSAMPLING};
 use beamfloor_sky::Shape;
 
 use super::RunError;
@@ -213,23 +213,6 @@ pub fn available_memory_bytes() -> Option<u64> {
     kib.checked_mul(1024)
 }
 
-/// The smallest 2^a 3^b 5^c ≥ n (the FFT sizes the imaging crate pads to).
-fn smooth_size(n: u64) -> u64 {
-    let mut m = n.max(1);
-    loop {
-        let mut r = m;
-        for p in [2, 3, 5] {
-            while r % p == 0 {
-                r /= p;
-            }
-        }
-        if r == 1 {
-            return m;
-        }
-        m += 1;
-    }
-}
-
 /// Antennas of the layout: from the generator's settings, or the data lines of a layout file
 /// (None when it cannot be read; the scenario then reports the file).
 fn antenna_count(config: &Config, config_path: Option<&Path>) -> Option<u64> {
@@ -337,7 +320,7 @@ fn kernel_problem(config: &Config, u_max: f64, cell_rad: f64) -> Option<Problem>
     let kernel = EsKernel::for_epsilon(config.imaging.accuracy).ok()?;
     let w = kernel.support() as f64;
     let n = u64::from(config.imaging.image_size_px);
-    let pad = smooth_size((UPSAMPLING * n as f64).ceil() as u64) as f64;
+    let pad = good_fft_size((UPSAMPLING * n as f64).ceil() as usize) as f64;
     // In cells of the padded grid, the longest baseline sits at u_max Δθ N_pad from the centre
     // and its kernel reaches W/2 further; the grid's edge is N_pad / 2 away.
     let reach = u_max * cell_rad * pad + 0.5 * w;
@@ -425,21 +408,4 @@ fn source_problems(
         ));
     }
     problems
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn smooth_sizes_are_the_next_2_3_5_numbers() {
-        // 2^a 3^b 5^c ("regular" or 5-smooth numbers, OEIS A051037): 1, 2, 3, 4, 5, 6, 8, 9,
-        // 10, 12, 15, 16, ..., 250, 256, 270.
-        assert_eq!(smooth_size(7), 8);
-        assert_eq!(smooth_size(11), 12);
-        assert_eq!(smooth_size(13), 15);
-        assert_eq!(smooth_size(251), 256);
-        assert_eq!(smooth_size(257), 270);
-        assert_eq!(smooth_size(1440), 1440);
-    }
 }

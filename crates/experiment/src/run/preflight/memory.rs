@@ -11,8 +11,9 @@ use beamfloor_imaging::{
 
 use super::super::aproj::{a_operator_params, binned_imaging_beam, kernel_max_freq_hz};
 use super::super::RunError;
-use super::{problem, smooth_size, GIB};
+use super::{problem, GIB};
 use crate::config::{Config, Gridding, Problem};
+use beamfloor_imaging::good_fft_size;
 
 /// The kernel A-projection operator's budget for its window of w-plane grids per pass (its
 /// `WINDOW_BYTES`): images beyond it are gridded in further passes.
@@ -130,8 +131,8 @@ pub fn estimate_memory(config: &Config, antennas: Option<u64>, threads: usize) -
     // Products of counts can pass 2^64 for absurd configs: count in f64, which saturates to
     // u64::MAX on the way back instead of wrapping.
     let n = f64::from(config.imaging.image_size_px);
-    let pad = smooth_size((UPSAMPLING * n).ceil() as u64) as f64;
-    let pad_psf = smooth_size((UPSAMPLING * 2.0 * n).ceil() as u64) as f64;
+    let pad = good_fft_size((UPSAMPLING * n).ceil() as usize) as f64;
+    let pad_psf = good_fft_size((UPSAMPLING * 2.0 * n).ceil() as usize) as f64;
     let t = threads.max(1) as f64;
     let es_support =
         EsKernel::for_epsilon(config.imaging.accuracy).map_or(16.0, |k| k.support() as f64);
