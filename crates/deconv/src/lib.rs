@@ -44,6 +44,7 @@ mod minor;
 #[cfg(test)]
 mod minor_reference;
 mod plan;
+mod refresh;
 mod restore;
 mod scales;
 mod sweep;

@@ -58,14 +58,11 @@ pub struct MajorCycleParams {
     /// [`DeconvError::MinorCycleDiverged`] on the same factor within itself). > 1. Default 1.5.
     pub divergence_factor: f64,
     /// When > 0, the minor cycles subtract each component only over the PSF patch outside which
-    /// the PSF is at most this fraction of its peak ([`CleanParams::psf_patch_sidelobe`]), and
-    /// the next exact residual corrects what the patch leaves out. The error a minor cycle
-    /// accumulates is bounded by this fraction times the flux it subtracts, so this is only
-    /// safe when minor cycles end at their depth (`minor_cycle_depth` × starting peak) after
-    /// few components: a minor cycle that runs thousands of components against a floor it
-    /// cannot clean (model errors) accumulates the far sidelobes it skipped and can make the
-    /// next major cycle diverge (seen on the demo with 0.02). 0 = the whole PSF (exact).
-    /// In [0, 1). Default 0.
+    /// the PSF is at most this fraction of its peak, with exact FFT refreshes of the residuals
+    /// in between and at their end ([`CleanParams::psf_patch_sidelobe`]). (Before the refresh
+    /// existed, a minor cycle that ran thousands of components against a floor accumulated the
+    /// far sidelobes it skipped and made the next major cycle diverge on the demo.)
+    /// 0 = the whole PSF (exact). In [0, 1). Default 0.
     pub psf_patch_sidelobe: f64,
     /// What a growing residual does (see [`OnDivergence`]). Default [`OnDivergence::Fail`].
     pub on_divergence: OnDivergence,

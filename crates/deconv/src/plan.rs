@@ -1,8 +1,10 @@
 use crate::convolve::convolve_same;
 use crate::hessian::{check_shape, TermHessian};
+use crate::refresh::PsfSpectra;
 use crate::scales::{scale_function, ScaleSet};
 use crate::DeconvError;
 use ndarray::Array2;
+use std::sync::{Arc, OnceLock};
 
 /// One scale of the minor cycle: its function, bias and N×N Hessian.
 #[derive(Clone, Debug)]
@@ -40,6 +42,9 @@ pub struct MinorCyclePlan {
     pub(crate) point_level: usize,
     /// Flattened PSF_k ⊗ Φ_s ⊗ Φ_q for s ≤ q, see [`MinorCyclePlan::cross_index`].
     pub(crate) cross: Vec<Vec<f64>>,
+    /// The PSFs' FFTs for the exact refresh of the PSF-patch mode, made on first use for the
+    /// image size of that call.
+    pub(crate) spectra: OnceLock<Arc<PsfSpectra>>,
 }
 
 impl MinorCyclePlan {
@@ -125,7 +130,7 @@ impl MinorCyclePlan {
             let hessian = TermHessian::from_peaks(&peaks, nterms, s)?;
             levels.push(Level { width_px, phi, bias, selectable, hessian });
         }
-        Ok(Self { nterms, psf_dim, levels, point_level, cross })
+        Ok(Self { nterms, psf_dim, levels, point_level, cross, spectra: OnceLock::new() })
     }
 
     fn cross_index_raw(nl: usize, nk: usize, s: usize, q: usize, k: usize) -> usize {
@@ -187,6 +192,16 @@ impl MinorCyclePlan {
             return reach.max(py).max(px);
         }
         h
+    }
+
+    /// The PSFs' FFTs for `ny × nx` images (cached for the first size asked for).
+    pub(crate) fn spectra(&self, ny: usize, nx: usize) -> Arc<PsfSpectra> {
+        let cached = self.spectra.get_or_init(|| Arc::new(PsfSpectra::new(self, ny, nx)));
+        if cached.fits(ny, nx) {
+            cached.clone()
+        } else {
+            Arc::new(PsfSpectra::new(self, ny, nx))
+        }
     }
 
     /// Scale widths (pixels) of the selectable scales with their Hessians, in the order given.

@@ -139,6 +139,14 @@ pub struct CleanConfig {
     pub max_iterations: u32,
     /// Cap on the number of major cycles, within 1..=1000. Default: `10`.
     pub max_major_cycles: u32,
+    /// Minor-cycle PSF patch, within [0, 1): each component is subtracted only over the
+    /// smallest centred square of the PSF outside which every sidelobe is at most this
+    /// fraction of the peak, and the residuals are recomputed exactly (FFT of the whole PSF
+    /// against the components found) every few hundred components and before each minor
+    /// cycle ends (Clark 1980). Faster by about the image-to-patch area ratio; the components
+    /// chosen between refreshes see residuals a few per cent off. `0` subtracts the whole PSF
+    /// every time. Default: `0.05`.
+    pub psf_patch_sidelobe: f64,
 }
 
 impl Default for CleanConfig {
@@ -149,6 +157,7 @@ impl Default for CleanConfig {
             threshold_sigma: None,
             max_iterations: 10_000,
             max_major_cycles: 10,
+            psf_patch_sidelobe: 0.05,
         }
     }
 }
@@ -272,6 +281,13 @@ impl StrategyConfig {
                 &format!("{cp}.max_iterations"),
                 cl.max_iterations,
                 "must be within 0..=10000000",
+            );
+        }
+        if !(cl.psf_patch_sidelobe.is_finite() && (0.0..1.0).contains(&cl.psf_patch_sidelobe)) {
+            c.fail(
+                &format!("{cp}.psf_patch_sidelobe"),
+                cl.psf_patch_sidelobe,
+                "must be within [0, 1) (0: the whole PSF for every component)",
             );
         }
         if !(1..=1000).contains(&cl.max_major_cycles) {

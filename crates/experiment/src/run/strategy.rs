@@ -160,6 +160,7 @@ pub fn image_strategy(
         threshold,
         max_iterations: clean.max_iterations as usize,
         max_major_cycles: clean.max_major_cycles as usize,
+        psf_patch_sidelobe: clean.psf_patch_sidelobe,
         // A residual that grows is a measured property of the strategy (its minor cycle's PSF
         // model is too far from its operator), reported with the best images it reached.
         on_divergence: OnDivergence::KeepBest,

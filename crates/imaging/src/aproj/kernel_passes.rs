@@ -544,6 +544,12 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
                                     for (q, acc_q) in acc.chunks_mut(n_img * np).enumerate() {
                                         let slot = (p + q) % window;
                                         for (t, a) in acc_q.chunks_mut(np).enumerate() {
+                                            // An image with no share in this channel (a zero
+                                            // factor, as in per-channel prediction) adds
+                                            // nothing: skip its dot products.
+                                            if factors[t][c] == 0.0 {
+                                                continue;
+                                            }
                                             let line =
                                                 &ring[slot * n_img + t][y * px..(y + 1) * px];
                                             dot_rows(simd, &line[x0..x0 + n1], &head[..np], a);
