@@ -120,6 +120,23 @@ impl PolyKernel {
         err
     }
 
+    /// Number of lanes [`Self::taps`] fills (W rounded up to a multiple of 4; the lanes from W on
+    /// are zero).
+    pub(crate) fn lanes(&self) -> usize {
+        self.lanes
+    }
+
+    /// Support W of the fitted kernel.
+    pub(crate) fn support(&self) -> usize {
+        self.support
+    }
+
+    /// The monomial coefficients, highest power first, one row of [`MAX_TAPS`] lanes per power
+    /// (for vectorised evaluations of the same polynomials).
+    pub(crate) fn coefficient_rows(&self) -> &[[f64; MAX_TAPS]] {
+        &self.coeffs
+    }
+
     /// Measured maximum error over the support (at fit time, 257 points per tap).
     #[cfg(test)]
     pub(crate) fn max_error(&self) -> f64 {

@@ -1,0 +1,193 @@
+//! The tiled passes against their slow, obviously-correct references: every sample's footprint
+//! scattered into (or gathered from) the whole padded grid one cell at a time, with the exact
+//! kernel φ(z) = exp(β(√(1 − z²) − 1)) of Barnett, Magland & af Klinteberg (2019, eq. 1.8)
+//! through [`EsKernel::taps`] and indices wrapped modulo the grid size. The grid sizes below give
+//! one band (footprints wrapping onto themselves), an odd and an even number of bands, and rows
+//! and columns that are not multiples of the tile size; the accuracies give every lane count.
+use super::*;
+use crate::kernel::EsKernel;
+use crate::params::{GridderParams, WRange, WTerm};
+use beamfloor_core::Correlation;
+use rand::{Rng, SeedableRng};
+use rand_chacha::ChaCha8Rng;
+
+const GEOMETRIES: [(usize, usize, f64); 3] = [(10, 12, 0.02), (24, 20, 0.01), (40, 36, 0.006)];
+const EPSILONS: [f64; 4] = [1e-3, 1e-6, 1e-9, 1e-13];
+
+fn visset(rng: &mut ChaCha8Rng, g: &ImageGeometry, w_max: f64) -> VisSet {
+    let (nr, nc) = (40, 4);
+    let freqs: Vec<f64> = (0..nc).map(|c| 1e9 * (1.0 + c as f64 / 3.0)).collect();
+    let to_m = SPEED_OF_LIGHT_M_PER_S / freqs[nc - 1];
+    // u, v up to 0.49 / cell at the top channel: footprints reach every grid edge.
+    let uvw = ndarray::Array2::from_shape_fn((nr, 3), |(_, k)| {
+        let lim = if k < 2 { 0.49 / g.cell_rad } else { w_max };
+        rng.random_range(-lim..lim) * to_m
+    });
+    VisSet {
+        frequencies_hz: freqs,
+        channel_width_hz: 1e6,
+        integration_s: 1.0,
+        hour_angles_rad: vec![0.0],
+        parallactic_angles_rad: vec![0.0],
+        phase_centre_ra_rad: 0.0,
+        phase_centre_dec_rad: 0.0,
+        antenna1: vec![0; nr],
+        antenna2: vec![1; nr],
+        time_index: vec![0; nr],
+        uvw_m: uvw,
+        weights: Array3::ones((nr, nc, 1)),
+        flags: Array3::from_elem((nr, nc, 1), false),
+        data: Array3::zeros((nr, nc, 1)),
+        correlations: vec![Correlation::BOTH[0]],
+        seed: 0,
+        truth_hash: String::new(),
+    }
+}
+
+/// Exact taps along x, y and the weight of plane `p` for sample `i`, with the first cells.
+fn exact(
+    plan: &GridPlan,
+    samples: &Samples,
+    i: usize,
+    p: usize,
+) -> (Vec<f64>, Vec<f64>, f64, i64, i64) {
+    let k: &EsKernel = &plan.kernel;
+    let w = k.support();
+    let (_, sx, sy, sw) = samples.at(plan, i);
+    let (mut kx, mut ky) = (vec![0.0; w], vec![0.0; w]);
+    let gx = k.taps(sx, &mut kx);
+    let gy = k.taps(sy, &mut ky);
+    let weight = match plan.planes {
+        None => 1.0,
+        Some(_) => k.phi((p as f64 - sw) / (0.5 * w as f64)),
+    };
+    (kx, ky, weight, gx, gy)
+}
+
+fn cases() -> Vec<GridPlan> {
+    let mut plans = Vec::new();
+    for (nx, ny, cell) in GEOMETRIES {
+        let g = ImageGeometry::new(nx, ny, cell);
+        for (e, eps) in EPSILONS.iter().enumerate() {
+            let w_term = if e % 2 == 0 { WTerm::Stack } else { WTerm::Ignore };
+            let params = GridderParams { epsilon: *eps, w_term };
+            plans.push(GridPlan::new(g, &params, WRange::new(-40.0, 60.0).unwrap()).unwrap());
+        }
+    }
+    plans
+}
+
+/// Tolerance: each polynomial tap is within ε/10 of the exact one (kernel_poly's fit bound), so
+/// a product of three taps of size ≤ 1 is within 0.3 ε plus rounding; a grid cell or a sample
+/// sums at most all the values involved.
+fn tolerance(plan: &GridPlan, total: f64) -> f64 {
+    (0.3 * plan.kernel.epsilon() + 1e-13) * total
+}
+
+#[test]
+fn tiled_spreading_matches_direct_scatter() {
+    let mut rng = ChaCha8Rng::seed_from_u64(11);
+    for plan in cases() {
+        let vis = visset(&mut rng, &plan.geometry, 60.0);
+        let samples = Samples::new(&plan, &vis);
+        let keep = |i: usize| i % 7 != 3;
+        let layout = plan.layout(&samples, vis.n_rows(), keep);
+        let n_out = 2;
+        let value = |i: usize, o: usize| {
+            Complex64::new((0.7 * i as f64 + o as f64).sin(), (1.3 * i as f64 - o as f64).cos())
+        };
+        let vals: Vec<Complex64> =
+            layout.order.iter().flat_map(|&i| (0..n_out).map(move |o| value(i, o))).collect();
+        let total: f64 = vals.iter().map(|v| v.norm()).sum();
+        let (px, py) = (plan.pad_nx, plan.pad_ny);
+        let mut largest = 0.0f64;
+        for p in 0..plan.n_w_planes() {
+            let mut grids = vec![vec![ZERO; px * py]; n_out];
+            plan.spread_plane(&samples, &layout, &vals, plan.plane_arg(p), &mut grids);
+            let mut want = vec![vec![ZERO; px * py]; n_out];
+            for i in (0..vis.n_rows() * vis.n_channels()).filter(|&i| keep(i)) {
+                let (kx, ky, weight, gx, gy) = exact(&plan, &samples, i, p);
+                for (o, want) in want.iter_mut().enumerate() {
+                    for (j, &b) in ky.iter().enumerate() {
+                        for (q, &a) in kx.iter().enumerate() {
+                            let x = (gx + q as i64).rem_euclid(px as i64) as usize;
+                            let y = (gy + j as i64).rem_euclid(py as i64) as usize;
+                            want[y * px + x] += value(i, o) * (a * b * weight);
+                        }
+                    }
+                }
+            }
+            let err = grids
+                .iter()
+                .flatten()
+                .zip(want.iter().flatten())
+                .map(|(a, b)| (a - b).norm())
+                .fold(0.0, f64::max);
+            assert!(err <= tolerance(&plan, total), "{:?} plane {p}: {err:e}", plan.padded_size());
+            largest = want.iter().flatten().map(|v| v.norm()).fold(largest, f64::max);
+        }
+        // Not a comparison of empty grids: some cell holds more than one sample's peak share.
+        assert!(largest > 1.0, "{largest}");
+    }
+}
+
+#[test]
+fn tiled_interpolation_matches_direct_gather() {
+    let mut rng = ChaCha8Rng::seed_from_u64(12);
+    for plan in cases() {
+        let vis = visset(&mut rng, &plan.geometry, 60.0);
+        let samples = Samples::new(&plan, &vis);
+        let layout = plan.layout(&samples, vis.n_rows(), |_| true);
+        let (px, py, nc) = (plan.pad_nx, plan.pad_ny, vis.n_channels());
+        // Two images; the second has a zero factor in channel 1 (skipped by the fast path).
+        let factors = vec![vec![1.0, 0.5, -0.25, 2.0], vec![0.3, 0.0, 1.1, -0.7]];
+        let mut acc = vec![ZERO; layout.order.len()];
+        let mut want = vec![ZERO; vis.n_rows() * nc];
+        for p in 0..plan.n_w_planes() {
+            let grids: Vec<Vec<Complex64>> = (0..2)
+                .map(|_| {
+                    (0..px * py)
+                        .map(|_| {
+                            Complex64::new(rng.random_range(-1.0..1.0), rng.random_range(-1.0..1.0))
+                        })
+                        .collect()
+                })
+                .collect();
+            plan.interpolate_plane(
+                &samples,
+                &layout,
+                &grids,
+                &factors,
+                plan.plane_arg(p),
+                &mut acc,
+            );
+            for (i, want) in want.iter_mut().enumerate() {
+                let (kx, ky, weight, gx, gy) = exact(&plan, &samples, i, p);
+                if weight == 0.0 {
+                    continue;
+                }
+                for (grid, f) in grids.iter().zip(&factors) {
+                    let mut sum = ZERO;
+                    for (j, &b) in ky.iter().enumerate() {
+                        for (q, &a) in kx.iter().enumerate() {
+                            let x = (gx + q as i64).rem_euclid(px as i64) as usize;
+                            let y = (gy + j as i64).rem_euclid(py as i64) as usize;
+                            sum += grid[y * px + x] * (a * b);
+                        }
+                    }
+                    *want += sum * f[i % nc] * weight;
+                }
+            }
+        }
+        let mut got = vec![ZERO; vis.n_rows() * nc];
+        for (&i, v) in layout.order.iter().zip(&acc) {
+            got[i] = *v;
+        }
+        // Each sample sums ≤ W³ products of grid values of size ≤ 1 (√2 for complex) per image.
+        let w = plan.kernel.support() as f64;
+        let tol = tolerance(&plan, 2.0 * 2.2 * 2f64.sqrt() * w.powi(3));
+        let err = got.iter().zip(&want).map(|(a, b)| (a - b).norm()).fold(0.0, f64::max);
+        assert!(err <= tol, "{:?}: {err:e} > {tol:e}", plan.padded_size());
+        assert!(want.iter().any(|v| v.norm() > 0.1));
+    }
+}

@@ -1,0 +1,626 @@
+//! Tiled spreading (gridding) and interpolation (degridding) for [`GridPlan`].
+//!
+//! The padded grid's rows are split into bands of `TILE` to 2 · `TILE` − 1 rows and each band's
+//! columns into tiles of `TILE` columns. A placed sample belongs to the tile that holds the first
+//! cell of its footprint, and the samples are ordered by (band, tile, first w plane, sample
+//! index). A band's samples are spread tile by tile into a small buffer (the tile's footprint
+//! window, real and imaginary parts apart so that a footprint row is a plain vector loop over the
+//! W taps — AVX2 with FMA when the CPU has it), and the buffer is added to the grid once per tile
+//! instead of W² scattered updates per sample into a grid far larger than the caches.
+//!
+//! Determinism: a band's footprints reach at most W − 1 ≤ `TILE` rows into the next band, so the
+//! bands are spread in phases of every other band (three phases for an odd count, the last band
+//! alone); within a phase no two bands write one grid row, and each band adds its tiles in sorted
+//! order. Every grid cell thus receives the same sums in the same order whatever the number of
+//! threads. Degridding only reads the grid: each band's samples are computed by one task, into
+//! their own slots of a per-sample accumulator.
+#[cfg(target_arch = "x86_64")]
+use super::tile_rows::AvxRows;
+use super::tile_rows::{ScalarRows, Simd, TileRows};
+use super::Samples;
+use crate::kernel_poly::MAX_TAPS;
+use crate::plan::GridPlan;
+use num_complex::Complex64;
+use rayon::prelude::*;
+
+const ZERO: Complex64 = Complex64 { re: 0.0, im: 0.0 };
+/// Tile index of a sample that is left out.
+pub(super) const NO_TILE: u32 = u32::MAX;
+/// Tile width in grid columns and smallest band height in grid rows (≥ W − 1 for every kernel).
+pub(super) const TILE: usize = 16;
+/// Row stride of a tile buffer: the footprint of a sample starting in column `TILE` − 1 of its
+/// tile reaches column `TILE` − 2 + W, and the vector loops touch up to `MAX_TAPS` lanes.
+pub(super) const STRIDE: usize = TILE + MAX_TAPS;
+/// Rows of a tile buffer: bands are shorter than 2 · `TILE` and footprints add W − 1 rows.
+const BUFFER_ROWS: usize = 2 * TILE + MAX_TAPS;
+/// Values per tile buffer (one for the real parts, one for the imaginary parts).
+const BUFFER: usize = BUFFER_ROWS * STRIDE;
+
+/// `g` modulo `n` in [0, n), without a division for the common |g| < n.
+#[inline(always)]
+fn wrap(g: i64, n: usize) -> usize {
+    let n = n as i64;
+    if (0..n).contains(&g) {
+        g as usize
+    } else if (-n..0).contains(&g) {
+        (g + n) as usize
+    } else {
+        g.rem_euclid(n) as usize
+    }
+}
+
+/// The bands and tiles of a padded grid.
+#[derive(Clone, Debug)]
+pub(super) struct TileMap {
+    /// First row of every band, and pad_ny at the end.
+    starts: Vec<usize>,
+    /// Band of every grid row.
+    band_of_row: Vec<u32>,
+    /// Tiles per band (pad_nx / `TILE`, rounded up).
+    tiles_x: usize,
+    pad_nx: usize,
+    pad_ny: usize,
+}
+
+impl TileMap {
+    pub(super) fn new(pad_nx: usize, pad_ny: usize) -> Self {
+        let bands = (pad_ny / TILE).max(1);
+        let starts: Vec<usize> = (0..=bands).map(|b| b * pad_ny / bands).collect();
+        let mut band_of_row = vec![0u32; pad_ny];
+        for (b, w) in starts.windows(2).enumerate() {
+            band_of_row[w[0]..w[1]].iter_mut().for_each(|v| *v = b as u32);
+        }
+        Self { starts, band_of_row, tiles_x: pad_nx.div_ceil(TILE), pad_nx, pad_ny }
+    }
+
+    fn bands(&self) -> usize {
+        self.starts.len() - 1
+    }
+
+    /// Tile of a footprint whose first cell is (gx0, gy0) before wrapping.
+    #[inline]
+    pub(super) fn tile_of(&self, gx0: i64, gy0: i64) -> u32 {
+        let x = wrap(gx0, self.pad_nx);
+        let y = wrap(gy0, self.pad_ny);
+        (self.band_of_row[y] as usize * self.tiles_x + x / TILE) as u32
+    }
+
+    /// The bands in phases: within one phase no two bands' footprints share a grid row.
+    fn phases(&self) -> Vec<Vec<usize>> {
+        let n = self.bands();
+        if n == 1 {
+            return vec![vec![0]];
+        }
+        let mut phases = vec![Vec::new(), Vec::new(), Vec::new()];
+        for b in 0..n {
+            let phase = if n % 2 == 1 && b == n - 1 { 2 } else { b % 2 };
+            phases[phase].push(b);
+        }
+        phases.retain(|p| !p.is_empty());
+        phases
+    }
+}
+
+/// A run of sorted samples with the same tile and first plane.
+#[derive(Clone, Copy, Debug)]
+struct Block {
+    /// Tile column inside the band.
+    tx: u32,
+    first: u32,
+    start: usize,
+    end: usize,
+}
+
+/// The samples sorted by tile, with the index structures of the tiled passes.
+pub(super) struct Layout {
+    /// Sample indices sorted by (band, tile, first plane, sample index).
+    pub(super) order: Vec<usize>,
+    map: TileMap,
+    blocks: Vec<Block>,
+    /// Blocks of band b: `blocks[band_blocks[b]..band_blocks[b + 1]]`.
+    band_blocks: Vec<usize>,
+    /// Samples of band b: `order[band_samples[b]..band_samples[b + 1]]`.
+    band_samples: Vec<usize>,
+    /// Whether any sample has a non-zero weight on plane p.
+    on_plane: Vec<bool>,
+}
+
+impl Layout {
+    /// The samples whose tile in `map` is `tiles[i]` (`NO_TILE`: left out), with first plane
+    /// `first(i)`, sorted for the tiled passes over `n_planes` planes.
+    pub(super) fn new(
+        tiles: &[u32],
+        map: TileMap,
+        n_planes: usize,
+        first: impl Fn(usize) -> u32 + Sync,
+    ) -> Self {
+        let n_tiles = map.bands() * map.tiles_x;
+        // Counting sort by tile (stable: sample order within a tile is kept).
+        let mut tile_starts = vec![0usize; n_tiles + 1];
+        for &t in tiles.iter().filter(|&&t| t != NO_TILE) {
+            tile_starts[t as usize + 1] += 1;
+        }
+        for t in 0..n_tiles {
+            tile_starts[t + 1] += tile_starts[t];
+        }
+        let mut next = tile_starts.clone();
+        let mut order = vec![0usize; tile_starts[n_tiles]];
+        for (i, &t) in tiles.iter().enumerate().filter(|(_, &t)| t != NO_TILE) {
+            order[next[t as usize]] = i;
+            next[t as usize] += 1;
+        }
+        let firsts: Vec<u32> = if n_planes > 1 {
+            let mut keyed: Vec<(u32, usize)> = order.par_iter().map(|&i| (first(i), i)).collect();
+            let mut rest: &mut [(u32, usize)] = &mut keyed;
+            let mut buckets = Vec::with_capacity(n_tiles);
+            for t in 0..n_tiles {
+                let (bucket, tail) = rest.split_at_mut(tile_starts[t + 1] - tile_starts[t]);
+                buckets.push(bucket);
+                rest = tail;
+            }
+            // (first, sample) pairs are distinct, so the order is fully determined.
+            buckets.into_par_iter().for_each(|b| b.sort_unstable());
+            order.iter_mut().zip(&keyed).for_each(|(o, k)| *o = k.1);
+            keyed.into_iter().map(|k| k.0).collect()
+        } else {
+            vec![0; order.len()]
+        };
+        let mut blocks: Vec<Block> = Vec::new();
+        for t in 0..n_tiles {
+            let tx = (t % map.tiles_x) as u32;
+            let (a, z) = (tile_starts[t], tile_starts[t + 1]);
+            for (k, &first) in (a..z).zip(&firsts[a..z]) {
+                match blocks.last_mut() {
+                    Some(b) if b.end == k && k > a && b.first == first => b.end = k + 1,
+                    _ => blocks.push(Block { tx, first, start: k, end: k + 1 }),
+                }
+            }
+        }
+        let band_samples: Vec<usize> =
+            (0..=map.bands()).map(|b| tile_starts[b * map.tiles_x]).collect();
+        let band_blocks =
+            band_samples.iter().map(|&k| blocks.partition_point(|b| b.start < k)).collect();
+        // A plane holds samples when a block starts within W planes below it (a superset when
+        // spans are cut at the last plane; empty planes then only cost an FFT of zero rows).
+        let mut on_plane = vec![false; n_planes];
+        for b in &blocks {
+            on_plane[b.first as usize] = true;
+        }
+        Self { order, map, blocks, band_blocks, band_samples, on_plane }
+    }
+
+    /// Whether any sample may touch plane `p` (W = `support`).
+    pub(super) fn has_plane(&self, p: usize, support: usize) -> bool {
+        self.on_plane[(p + 1).saturating_sub(support)..=p].iter().any(|&t| t)
+    }
+
+    /// Blocks of band `b` whose first plane lets them touch plane `p` (all when `p` is None).
+    fn blocks_on(
+        &self,
+        b: usize,
+        p: Option<usize>,
+        support: usize,
+    ) -> impl Iterator<Item = &Block> {
+        self.blocks[self.band_blocks[b]..self.band_blocks[b + 1]].iter().filter(move |bl| {
+            p.is_none_or(|p| (bl.first as usize) <= p && p < bl.first as usize + support)
+        })
+    }
+
+    /// Mark in `rows` every grid row a footprint on plane `p` may touch (per band: its rows and
+    /// the W − 1 after it).
+    pub(super) fn mark_rows(&self, p: Option<usize>, support: usize, rows: &mut [bool]) {
+        let py = self.map.pad_ny;
+        for b in 0..self.map.bands() {
+            if self.blocks_on(b, p, support).next().is_none() {
+                continue;
+            }
+            for y in self.map.starts[b]..self.map.starts[b + 1] + support - 1 {
+                rows[y % py] = true;
+            }
+        }
+    }
+}
+
+/// Smallest rectangle (columns c0..c1, rows r0..r1 of a tile buffer) holding some footprints.
+#[derive(Clone, Copy, Debug)]
+struct Rect {
+    c0: usize,
+    c1: usize,
+    r0: usize,
+    r1: usize,
+}
+
+impl Rect {
+    fn grow(rect: &mut Option<Rect>, dx: usize, dy: usize, w: usize) {
+        let r = rect.get_or_insert(Rect { c0: dx, c1: dx + w, r0: dy, r1: dy + w });
+        r.c0 = r.c0.min(dx);
+        r.c1 = r.c1.max(dx + w);
+        r.r0 = r.r0.min(dy);
+        r.r1 = r.r1.max(dy + w);
+    }
+}
+
+/// One band's share of the grids in a spreading phase: its own rows (`own`, one slice per
+/// output) and the rows of the next band (`next`; empty when there is a single band).
+struct BandGrids<'a> {
+    own: Vec<&'a mut [Complex64]>,
+    next: Vec<&'a mut [Complex64]>,
+}
+
+/// Everything a band task reads.
+struct Job<'a> {
+    plan: &'a GridPlan,
+    samples: &'a Samples<'a>,
+    layout: &'a Layout,
+    band: usize,
+    plane: Option<usize>,
+}
+
+/// One sample ready for a tile buffer: its kernel taps along x and y, its offsets in the tile
+/// buffer and the weight of the job's plane.
+struct Footprint {
+    kx: [f64; MAX_TAPS],
+    ky: [f64; MAX_TAPS],
+    kw: [f64; MAX_TAPS],
+    dx: usize,
+    dy: usize,
+    chan: usize,
+    weight: f64,
+}
+
+impl Footprint {
+    fn new() -> Self {
+        Self {
+            kx: [0.0; MAX_TAPS],
+            ky: [0.0; MAX_TAPS],
+            kw: [0.0; MAX_TAPS],
+            dx: 0,
+            dy: 0,
+            chan: 0,
+            weight: 0.0,
+        }
+    }
+}
+
+impl Job<'_> {
+    /// Fill `f` for sample `i` of tile column `tx`; false when the sample has no weight on the
+    /// job's plane.
+    #[inline(always)]
+    fn footprint<R: TileRows>(&self, i: usize, tx: u32, f: &mut Footprint) -> bool {
+        let plan = self.plan;
+        let poly = &plan.poly;
+        let (c, sx, sy, w) = self.samples.at(plan, i);
+        let (gx, gy) = match self.plane {
+            None => {
+                f.weight = 1.0;
+                let [gx, gy] = R::taps(poly, [sx, sy], [&mut f.kx, &mut f.ky]);
+                (gx, gy)
+            }
+            Some(p) => {
+                let (first, count) = plan.plane_span(w);
+                if p < first || p >= first + count {
+                    return false;
+                }
+                // Plane p sits at distance p − w from the sample: a tap of the kernel along w.
+                let [gw, gx, gy] = R::taps(poly, [w, sx, sy], [&mut f.kw, &mut f.kx, &mut f.ky]);
+                debug_assert!((0..plan.kernel.support() as i64).contains(&(p as i64 - gw)));
+                f.weight = f.kw[(p as i64 - gw) as usize];
+                (gx, gy)
+            }
+        };
+        if f.weight == 0.0 {
+            return false;
+        }
+        let map = &self.layout.map;
+        f.dx = wrap(gx, map.pad_nx) - tx as usize * TILE;
+        f.dy = wrap(gy, map.pad_ny) - map.starts[self.band];
+        debug_assert!(f.dx < TILE && f.dy < map.starts[self.band + 1] - map.starts[self.band]);
+        f.chan = c;
+        true
+    }
+
+    /// Tile groups of the band: runs of blocks with one tile column.
+    fn tile_groups(&self) -> Vec<(u32, Vec<Block>)> {
+        let w = self.plan.kernel.support();
+        let mut groups: Vec<(u32, Vec<Block>)> = Vec::new();
+        for b in self.layout.blocks_on(self.band, self.plane, w) {
+            match groups.last_mut() {
+                Some((tx, list)) if *tx == b.tx => list.push(*b),
+                _ => groups.push((b.tx, vec![*b])),
+            }
+        }
+        groups
+    }
+
+    /// Spread the band's samples on the job's plane, values `vals[k · n_out + o]` for sorted
+    /// sample k and output o, into `grids`.
+    #[inline(always)]
+    fn spread_band<R: TileRows, const L: usize>(&self, vals: &[Complex64], grids: &mut BandGrids) {
+        let w = self.plan.kernel.support();
+        let n_out = grids.own.len();
+        let mut buf = vec![0.0f64; 2 * n_out * BUFFER];
+        let mut f = Footprint::new();
+        for (tx, blocks) in self.tile_groups() {
+            let mut rect = None;
+            for bl in &blocks {
+                for k in bl.start..bl.end {
+                    if !self.footprint::<R>(self.layout.order[k], tx, &mut f) {
+                        continue;
+                    }
+                    let at = (f.dx, f.dy, w);
+                    for (o, chunk) in buf.chunks_exact_mut(2 * BUFFER).enumerate() {
+                        let v = vals[k * n_out + o];
+                        if v == ZERO {
+                            continue;
+                        }
+                        let (re, im) = chunk.split_at_mut(BUFFER);
+                        R::spread::<L>(re, im, at, &f.kx, &f.ky, v * f.weight);
+                    }
+                    Rect::grow(&mut rect, f.dx, f.dy, w);
+                }
+            }
+            if let Some(rect) = rect {
+                for (o, chunk) in buf.chunks_exact_mut(2 * BUFFER).enumerate() {
+                    let (re, im) = chunk.split_at_mut(BUFFER);
+                    let next = grids.next.get_mut(o).map(|g| &mut **g);
+                    self.flush(re, im, rect, tx as usize, L, &mut *grids.own[o], next);
+                }
+            }
+        }
+    }
+
+    /// Add the buffer's `rect` to the grid rows of the band (`own`) and of the next band
+    /// (`next`, None when the band is the only one), and zero the buffer there (plus the
+    /// `lanes` − W columns of zero taps after it).
+    #[allow(clippy::too_many_arguments)]
+    fn flush(
+        &self,
+        re: &mut [f64],
+        im: &mut [f64],
+        rect: Rect,
+        tx: usize,
+        lanes: usize,
+        own: &mut [Complex64],
+        mut next: Option<&mut [Complex64]>,
+    ) {
+        let map = &self.layout.map;
+        let (px, py) = (map.pad_nx, map.pad_ny);
+        let (start, end) = (map.starts[self.band], map.starts[self.band + 1]);
+        let w = self.plan.kernel.support();
+        let zero_to = (rect.c1 - w + lanes).min(STRIDE);
+        for r in rect.r0..rect.r1 {
+            let y = start + r;
+            let line = if y < end {
+                &mut own[(y - start) * px..(y - start + 1) * px]
+            } else if let Some(next) = next.as_deref_mut() {
+                let y = y - end;
+                &mut next[y * px..(y + 1) * px]
+            } else {
+                let y = y % py;
+                &mut own[y * px..(y + 1) * px]
+            };
+            let row = r * STRIDE;
+            let (rr, ii) = (&re[row + rect.c0..row + rect.c1], &im[row + rect.c0..row + rect.c1]);
+            let x0 = tx * TILE + rect.c0;
+            if x0 + rr.len() <= px {
+                for ((g, &a), &b) in line[x0..x0 + rr.len()].iter_mut().zip(rr).zip(ii) {
+                    g.re += a;
+                    g.im += b;
+                }
+            } else {
+                for (i, (&a, &b)) in rr.iter().zip(ii).enumerate() {
+                    let g = &mut line[(x0 + i) % px];
+                    g.re += a;
+                    g.im += b;
+                }
+            }
+            re[row + rect.c0..row + zero_to].iter_mut().for_each(|v| *v = 0.0);
+            im[row + rect.c0..row + zero_to].iter_mut().for_each(|v| *v = 0.0);
+        }
+    }
+
+    /// Interpolate the band's samples on the job's plane from `grids` (one per image, weighted
+    /// per channel by `factors[image][chan]`), adding each into `acc` (the band's slots).
+    #[inline(always)]
+    fn interpolate_band<R: TileRows, const L: usize>(
+        &self,
+        grids: &[Vec<Complex64>],
+        factors: &[Vec<f64>],
+        acc: &mut [Complex64],
+    ) {
+        let map = &self.layout.map;
+        let (px, py) = (map.pad_nx, map.pad_ny);
+        let w = self.plan.kernel.support();
+        let start = map.starts[self.band];
+        // The tile's window: footprints start in its rows and first TILE columns; the vector
+        // loops read L lanes from a footprint's first column.
+        let (rows, cols) = (map.starts[self.band + 1] - start + w - 1, TILE - 1 + L);
+        let first_sample = self.layout.band_samples[self.band];
+        let mut buf = vec![0.0f64; 2 * grids.len() * BUFFER];
+        let mut f = Footprint::new();
+        for (tx, blocks) in self.tile_groups() {
+            let x0 = tx as usize * TILE;
+            for (grid, chunk) in grids.iter().zip(buf.chunks_exact_mut(2 * BUFFER)) {
+                let (re, im) = chunk.split_at_mut(BUFFER);
+                for r in 0..rows {
+                    let y = (start + r) % py;
+                    let line = &grid[y * px..(y + 1) * px];
+                    let (re, im) = (&mut re[r * STRIDE..][..cols], &mut im[r * STRIDE..][..cols]);
+                    if x0 + cols <= px {
+                        for ((a, b), g) in
+                            re.iter_mut().zip(im.iter_mut()).zip(&line[x0..x0 + cols])
+                        {
+                            *a = g.re;
+                            *b = g.im;
+                        }
+                    } else {
+                        for (c, (a, b)) in re.iter_mut().zip(im.iter_mut()).enumerate() {
+                            let g = line[(x0 + c) % px];
+                            *a = g.re;
+                            *b = g.im;
+                        }
+                    }
+                }
+            }
+            for bl in &blocks {
+                for k in bl.start..bl.end {
+                    if !self.footprint::<R>(self.layout.order[k], tx, &mut f) {
+                        continue;
+                    }
+                    let at = (f.dx, f.dy, w);
+                    let mut sum = ZERO;
+                    for (fac, chunk) in factors.iter().zip(buf.chunks_exact(2 * BUFFER)) {
+                        let fc = fac[f.chan];
+                        if fc == 0.0 {
+                            continue;
+                        }
+                        let (re, im) = chunk.split_at(BUFFER);
+                        sum += R::interpolate::<L>(re, im, at, &f.kx, &f.ky) * fc;
+                    }
+                    acc[k - first_sample] += sum * f.weight;
+                }
+            }
+        }
+    }
+}
+
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2,fma")]
+fn spread_band_avx<const L: usize>(job: &Job, vals: &[Complex64], grids: &mut BandGrids) {
+    job.spread_band::<AvxRows, L>(vals, grids)
+}
+
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2,fma")]
+fn interpolate_band_avx<const L: usize>(
+    job: &Job,
+    grids: &[Vec<Complex64>],
+    factors: &[Vec<f64>],
+    acc: &mut [Complex64],
+) {
+    job.interpolate_band::<AvxRows, L>(grids, factors, acc)
+}
+
+/// Split `grid` (pad_ny rows of `px`) into the rows of every band.
+fn band_rows<'a>(
+    grid: &'a mut [Complex64],
+    starts: &[usize],
+    px: usize,
+) -> Vec<Option<&'a mut [Complex64]>> {
+    let mut rest = grid;
+    let mut out = Vec::with_capacity(starts.len() - 1);
+    for w in starts.windows(2) {
+        let (band, tail) = rest.split_at_mut((w[1] - w[0]) * px);
+        out.push(Some(band));
+        rest = tail;
+    }
+    out
+}
+
+impl GridPlan {
+    /// Spread every sample of `layout` that touches plane `plane` (None: the only plane) into
+    /// `grids` (one per output), with values `vals[k · n_out + o]` per sorted sample k.
+    pub(super) fn spread_plane(
+        &self,
+        samples: &Samples,
+        layout: &Layout,
+        vals: &[Complex64],
+        plane: Option<usize>,
+        grids: &mut [Vec<Complex64>],
+    ) {
+        let simd = Simd::detect();
+        let lanes = self.poly.lanes();
+        let n = layout.map.bands();
+        let px = self.pad_nx;
+        for phase in layout.map.phases() {
+            let mut split: Vec<Vec<Option<&mut [Complex64]>>> =
+                grids.iter_mut().map(|g| band_rows(g, &layout.map.starts, px)).collect();
+            let tasks: Vec<(usize, BandGrids)> = phase
+                .iter()
+                .map(|&b| {
+                    let own = split
+                        .iter_mut()
+                        .map(|s| s[b].take().expect("bands of one phase do not share rows"))
+                        .collect();
+                    let next = if n > 1 {
+                        split
+                            .iter_mut()
+                            .map(|s| {
+                                s[(b + 1) % n].take().expect("bands of one phase do not share rows")
+                            })
+                            .collect()
+                    } else {
+                        Vec::new()
+                    };
+                    (b, BandGrids { own, next })
+                })
+                .collect();
+            tasks.into_par_iter().for_each(|(band, mut g)| {
+                let job = Job { plan: self, samples, layout, band, plane };
+                match (simd, lanes) {
+                    #[cfg(target_arch = "x86_64")]
+                    // SAFETY: Simd::detect found AVX2 and FMA on this CPU.
+                    (Simd::Avx2Fma, 4) => unsafe { spread_band_avx::<4>(&job, vals, &mut g) },
+                    #[cfg(target_arch = "x86_64")]
+                    (Simd::Avx2Fma, 8) => unsafe { spread_band_avx::<8>(&job, vals, &mut g) },
+                    #[cfg(target_arch = "x86_64")]
+                    (Simd::Avx2Fma, 12) => unsafe { spread_band_avx::<12>(&job, vals, &mut g) },
+                    #[cfg(target_arch = "x86_64")]
+                    (Simd::Avx2Fma, _) => unsafe { spread_band_avx::<16>(&job, vals, &mut g) },
+                    (_, 4) => job.spread_band::<ScalarRows, 4>(vals, &mut g),
+                    (_, 8) => job.spread_band::<ScalarRows, 8>(vals, &mut g),
+                    (_, 12) => job.spread_band::<ScalarRows, 12>(vals, &mut g),
+                    _ => job.spread_band::<ScalarRows, 16>(vals, &mut g),
+                }
+            });
+        }
+    }
+
+    /// Interpolate every sample of `layout` that touches plane `plane` from `grids` (one per
+    /// image; `factors[image][chan]`), adding into `acc[k]` for sorted sample k.
+    pub(super) fn interpolate_plane(
+        &self,
+        samples: &Samples,
+        layout: &Layout,
+        grids: &[Vec<Complex64>],
+        factors: &[Vec<f64>],
+        plane: Option<usize>,
+        acc: &mut [Complex64],
+    ) {
+        let simd = Simd::detect();
+        let lanes = self.poly.lanes();
+        let mut rest = acc;
+        let mut slots = Vec::with_capacity(layout.map.bands());
+        for w in layout.band_samples.windows(2) {
+            let (band, tail) = rest.split_at_mut(w[1] - w[0]);
+            slots.push(band);
+            rest = tail;
+        }
+        slots.into_par_iter().enumerate().for_each(|(band, acc)| {
+            let job = Job { plan: self, samples, layout, band, plane };
+            match (simd, lanes) {
+                #[cfg(target_arch = "x86_64")]
+                // SAFETY: Simd::detect found AVX2 and FMA on this CPU.
+                (Simd::Avx2Fma, 4) => unsafe {
+                    interpolate_band_avx::<4>(&job, grids, factors, acc)
+                },
+                #[cfg(target_arch = "x86_64")]
+                (Simd::Avx2Fma, 8) => unsafe {
+                    interpolate_band_avx::<8>(&job, grids, factors, acc)
+                },
+                #[cfg(target_arch = "x86_64")]
+                (Simd::Avx2Fma, 12) => unsafe {
+                    interpolate_band_avx::<12>(&job, grids, factors, acc)
+                },
+                #[cfg(target_arch = "x86_64")]
+                (Simd::Avx2Fma, _) => unsafe {
+                    interpolate_band_avx::<16>(&job, grids, factors, acc)
+                },
+                (_, 4) => job.interpolate_band::<ScalarRows, 4>(grids, factors, acc),
+                (_, 8) => job.interpolate_band::<ScalarRows, 8>(grids, factors, acc),
+                (_, 12) => job.interpolate_band::<ScalarRows, 12>(grids, factors, acc),
+                _ => job.interpolate_band::<ScalarRows, 16>(grids, factors, acc),
+            }
+        });
+    }
+}
