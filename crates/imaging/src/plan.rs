@@ -148,6 +148,28 @@ impl GridPlan {
         let cy: Vec<f64> = (0..ny)
             .map(|iy| kernel.fourier((iy as f64 - (ny / 2) as f64) / pad_ny as f64))
             .collect();
+        // ψ̂ along w depends on a pixel only through r² = l² + m², and with l and m exact multiples
+        // of the cell, r² is the same (bit for bit) for the pixels (±a, ±b) and (±b, ±a) around
+        // the centre: evaluate it once per offset pair a ≤ b (an eighth of the pixels).
+        let (hx, hy) = (nx / 2, ny / 2);
+        let side = hx.max(hy) + 1;
+        let cw_of_pair: Vec<f64> = match planes {
+            Some(p) => (0..side * side)
+                .into_par_iter()
+                .map(|k| {
+                    let (a, b) = (k / side, k % side);
+                    let used = a <= b && ((a <= hx && b <= hy) || (b <= hx && a <= hy));
+                    let (l, m) = (a as f64 * geometry.cell_rad, b as f64 * geometry.cell_rad);
+                    let r2 = l * l + m * m;
+                    if !used || r2 >= 1.0 {
+                        return 0.0;
+                    }
+                    // The same expression as n − 1 above.
+                    kernel.fourier(p.dw * (-r2 / (1.0 + (1.0 - r2).sqrt())))
+                })
+                .collect(),
+            None => Vec::new(),
+        };
         let mut inverse_correction = Array2::<f64>::zeros((ny, nx));
         inverse_correction
             .as_slice_mut()
@@ -160,7 +182,10 @@ impl GridPlan {
                         continue;
                     }
                     let cw = match planes {
-                        Some(p) => kernel.fourier(p.dw * n_minus_1[[iy, ix]]),
+                        Some(_) => {
+                            let (a, b) = (ix.abs_diff(hx), iy.abs_diff(hy));
+                            cw_of_pair[a.min(b) * side + a.max(b)]
+                        }
                         None => 1.0,
                     };
                     *v = 1.0 / (cx[ix] * cy[iy] * cw);
@@ -250,6 +275,27 @@ mod tests {
         assert_eq!(good_fft_size(98), 100);
         assert_eq!(good_fft_size(242), 250);
         assert_eq!(good_fft_size(7), 8);
+    }
+
+    #[test]
+    fn w_correction_is_the_kernel_transform_at_every_pixel() {
+        // Definition: 1 / (ψ̂(j_x/pad_nx) ψ̂(j_y/pad_ny) ψ̂(Δw (n − 1))) per pixel, evaluated here
+        // pixel by pixel (the plan shares ψ̂ along w between pixels of equal radius). The same
+        // floating-point operations in the same order, so equal to rounding (1e-14 is headroom).
+        let g = ImageGeometry::new(24, 18, 0.01);
+        let p =
+            GridPlan::new(g, &GridderParams::default(), WRange::new(-50.0, 80.0).unwrap()).unwrap();
+        let (k, dw) = (p.kernel(), p.w_plane_spacing().unwrap());
+        let (px, py) = p.padded_size();
+        for iy in 0..g.ny {
+            for ix in 0..g.nx {
+                let cx = k.fourier((ix as f64 - 12.0) / px as f64);
+                let cy = k.fourier((iy as f64 - 9.0) / py as f64);
+                let want = 1.0 / (cx * cy * k.fourier(dw * p.n_minus_1[[iy, ix]]));
+                let got = p.inverse_correction[[iy, ix]];
+                assert!((got - want).abs() <= 1e-14 * want.abs(), "{ix} {iy}: {got} {want}");
+            }
+        }
     }
 
     #[test]
