@@ -341,6 +341,8 @@ pub struct KernelAProjection<'a, B: VoltageBeam + ?Sized> {
     /// Per-pixel real correction `[iy][ix]`: the plan's 1/(ψ̂_x ψ̂_y ψ̂_w) divided by the
     /// interpolation gain.
     pub(crate) correction: Vec<f64>,
+    /// Padded grids reused between calls (shared by clones).
+    pub(crate) pool: Arc<super::grid_pool::GridPool>,
 }
 
 // Manual impl: a derive would demand `B: Clone`, but only the reference is copied.
@@ -356,6 +358,7 @@ impl<B: VoltageBeam + ?Sized> Clone for KernelAProjection<'_, B> {
             tables: self.tables.clone(),
             grid_with_forward: self.grid_with_forward,
             correction: self.correction.clone(),
+            pool: self.pool.clone(),
         }
     }
 }
@@ -431,6 +434,7 @@ impl<'a, B: VoltageBeam + ?Sized> KernelAProjection<'a, B> {
             tables: Arc::new(tables),
             grid_with_forward: false,
             correction,
+            pool: Arc::default(),
         })
     }
 

@@ -320,7 +320,7 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
             let mut screens = Screens::new(&self.plan, &self.correction, 1.0);
             let mut images_t = vec![vec![0.0; g.nx * g.ny]; n_out];
             // Slot-major ring: grid of plane p, output o at ring[(p mod W) · n_out + o].
-            let mut ring = vec![vec![ZERO; px * py]; window * n_out];
+            let mut ring = self.pool.take(window * n_out, px * py);
             let mut touched = vec![false; window];
             for (p, bucket) in buckets.iter().enumerate() {
                 if !bucket.is_empty() {
@@ -436,6 +436,8 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
                     self.plan.add_plane_to_image(grid, &plane_rows[p], screen, image_t);
                 }
             }
+            // Every slot written was transformed and left zero again.
+            self.pool.give_back(ring, true);
             for (image, image_t) in images[first..first + n_out].iter_mut().zip(&images_t) {
                 let img = image.as_slice_mut().expect("fresh array is contiguous");
                 self.plan.add_untransposed(image_t, img);
@@ -493,7 +495,7 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
                 })
                 .collect();
             let mut screens = Screens::new(&self.plan, &self.correction, -1.0);
-            let mut ring = vec![vec![ZERO; px * py]; window * n_img];
+            let mut ring = self.pool.take(window * n_img, px * py);
             let mut holds = vec![usize::MAX; window];
             for (p, bucket) in buckets.iter().enumerate() {
                 if bucket.is_empty() {
@@ -582,6 +584,7 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
                     }
                 }
             }
+            self.pool.give_back(ring, false);
         }
         Ok(Array3::from_shape_vec((nr, nc, np), out).expect("sized above"))
     }

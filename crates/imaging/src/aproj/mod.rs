@@ -6,6 +6,7 @@
 
 mod conjugate;
 mod direct_beam;
+mod grid_pool;
 mod kernel_operator;
 mod kernel_passes;
 mod kernel_rows;
