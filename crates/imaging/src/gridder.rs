@@ -20,7 +20,7 @@ use ndarray::{Array2, Array3, ArrayView3};
 use num_complex::Complex64;
 use rayon::prelude::*;
 use std::borrow::Cow;
-use tiles::{Layout, TileMap, NO_TILE};
+use tiles::{GridValues, Layout, TileMap, NO_TILE};
 
 #[cfg(test)]
 mod tests;
@@ -207,14 +207,7 @@ impl ImagingOperator for GridPlan {
         let layout = self.layout(&samples, vis.n_rows(), |i| {
             summed[i * n_src..(i + 1) * n_src].iter().any(|v| *v != ZERO)
         });
-        // Every sorted sample's value per output (the plane weight is applied per plane).
-        let mut vals = vec![ZERO; layout.order.len() * n_out];
-        vals.par_chunks_mut(n_out).zip(layout.order.par_iter()).for_each(|(v, &i)| {
-            let c = i % nc;
-            for (x, o) in v.iter_mut().zip(outputs) {
-                *x = summed[i * n_src + o.source] * o.channel_factors[c];
-            }
-        });
+        let values = GridValues { summed, n_src, outputs };
         let w = self.kernel.support();
         let mut grids = vec![vec![ZERO; px * py]; n_out];
         let mut rows = vec![false; py];
@@ -226,7 +219,7 @@ impl ImagingOperator for GridPlan {
                 continue;
             }
             let plane = self.plane_arg(p);
-            self.spread_plane(&samples, &layout, &vals, plane, &mut grids);
+            self.spread_plane(&samples, &layout, &values, plane, &mut grids);
             rows.iter_mut().for_each(|t| *t = false);
             layout.mark_rows(plane, w, &mut rows);
             let screen = screens.plane(p);

@@ -92,18 +92,29 @@ fn tiled_spreading_matches_direct_scatter() {
         let samples = Samples::new(&plan, &vis);
         let keep = |i: usize| i % 7 != 3;
         let layout = plan.layout(&samples, vis.n_rows(), keep);
-        let n_out = 2;
+        let n_samples = vis.n_rows() * vis.n_channels();
+        let n_src = 2;
+        let summed: Vec<Complex64> = (0..n_samples * n_src)
+            .map(|k| Complex64::new((0.7 * k as f64).sin(), (1.3 * k as f64).cos()))
+            .collect();
+        // The second output grids the second source with a zero factor in channel 2.
+        let outputs = [
+            GridOutput { source: 0, channel_factors: vec![1.0, 0.5, -2.0, 0.25] },
+            GridOutput { source: 1, channel_factors: vec![0.3, 1.5, 0.0, -1.0] },
+        ];
+        let n_out = outputs.len();
+        let nc = vis.n_channels();
         let value = |i: usize, o: usize| {
-            Complex64::new((0.7 * i as f64 + o as f64).sin(), (1.3 * i as f64 - o as f64).cos())
+            summed[i * n_src + outputs[o].source] * outputs[o].channel_factors[i % nc]
         };
-        let vals: Vec<Complex64> =
-            layout.order.iter().flat_map(|&i| (0..n_out).map(move |o| value(i, o))).collect();
-        let total: f64 = vals.iter().map(|v| v.norm()).sum();
+        let values = GridValues { summed: &summed, n_src, outputs: &outputs };
+        let total: f64 =
+            layout.order.iter().flat_map(|&i| (0..n_out).map(move |o| value(i, o).norm())).sum();
         let (px, py) = (plan.pad_nx, plan.pad_ny);
         let mut largest = 0.0f64;
         for p in 0..plan.n_w_planes() {
             let mut grids = vec![vec![ZERO; px * py]; n_out];
-            plan.spread_plane(&samples, &layout, &vals, plan.plane_arg(p), &mut grids);
+            plan.spread_plane(&samples, &layout, &values, plan.plane_arg(p), &mut grids);
             let mut want = vec![vec![ZERO; px * py]; n_out];
             for i in (0..vis.n_rows() * vis.n_channels()).filter(|&i| keep(i)) {
                 let (kx, ky, weight, gx, gy) = exact(&plan, &samples, i, p);

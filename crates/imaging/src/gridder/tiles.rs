@@ -16,14 +16,17 @@
 //! their own slots of a per-sample accumulator.
 #[cfg(target_arch = "x86_64")]
 use super::tile_rows::AvxRows;
-use super::tile_rows::{ScalarRows, Simd, TileRows};
+use super::tile_rows::{prefetch, ScalarRows, Simd, TileRows};
 use super::Samples;
 use crate::kernel_poly::MAX_TAPS;
+use crate::operator::GridOutput;
 use crate::plan::GridPlan;
 use num_complex::Complex64;
 use rayon::prelude::*;
 
 const ZERO: Complex64 = Complex64 { re: 0.0, im: 0.0 };
+/// Samples ahead whose data are prefetched.
+const AHEAD: usize = 8;
 /// Tile index of a sample that is left out.
 pub(super) const NO_TILE: u32 = u32::MAX;
 /// Tile width in grid columns and smallest band height in grid rows (≥ W − 1 for every kernel).
@@ -247,6 +250,23 @@ struct BandGrids<'a> {
     next: Vec<&'a mut [Complex64]>,
 }
 
+/// The value sample i (channel c) adds to output o: its summed correlations of the output's
+/// source times the output's factor for the channel.
+pub(super) struct GridValues<'a> {
+    /// Per sample, the sum of its correlations for every source (`n_src` values).
+    pub(super) summed: &'a [Complex64],
+    pub(super) n_src: usize,
+    pub(super) outputs: &'a [GridOutput],
+}
+
+impl GridValues<'_> {
+    #[inline(always)]
+    fn get(&self, i: usize, c: usize, o: usize) -> Complex64 {
+        let out = &self.outputs[o];
+        self.summed[i * self.n_src + out.source] * out.channel_factors[c]
+    }
+}
+
 /// Everything a band task reads.
 struct Job<'a> {
     plan: &'a GridPlan,
@@ -319,6 +339,17 @@ impl Job<'_> {
         true
     }
 
+    /// Prefetch the uvw (and the values, when gridding) of sorted sample `k` + `AHEAD`.
+    #[inline(always)]
+    fn prefetch(&self, k: usize, values: Option<&GridValues>) {
+        if let Some(&i) = self.layout.order.get(k + AHEAD) {
+            prefetch(&self.samples.uvw[3 * (i / self.samples.n_chan)]);
+            if let Some(v) = values {
+                prefetch(&v.summed[i * v.n_src]);
+            }
+        }
+    }
+
     /// Tile groups of the band: runs of blocks with one tile column.
     fn tile_groups(&self) -> Vec<(u32, Vec<Block>)> {
         let w = self.plan.kernel.support();
@@ -332,10 +363,9 @@ impl Job<'_> {
         groups
     }
 
-    /// Spread the band's samples on the job's plane, values `vals[k · n_out + o]` for sorted
-    /// sample k and output o, into `grids`.
+    /// Spread the band's samples on the job's plane, with their `values`, into `grids`.
     #[inline(always)]
-    fn spread_band<R: TileRows, const L: usize>(&self, vals: &[Complex64], grids: &mut BandGrids) {
+    fn spread_band<R: TileRows, const L: usize>(&self, values: &GridValues, grids: &mut BandGrids) {
         let w = self.plan.kernel.support();
         let n_out = grids.own.len();
         let mut buf = vec![0.0f64; 2 * n_out * BUFFER];
@@ -344,12 +374,14 @@ impl Job<'_> {
             let mut rect = None;
             for bl in &blocks {
                 for k in bl.start..bl.end {
-                    if !self.footprint::<R>(self.layout.order[k], tx, &mut f) {
+                    self.prefetch(k, Some(values));
+                    let i = self.layout.order[k];
+                    if !self.footprint::<R>(i, tx, &mut f) {
                         continue;
                     }
                     let at = (f.dx, f.dy, w);
                     for (o, chunk) in buf.chunks_exact_mut(2 * BUFFER).enumerate() {
-                        let v = vals[k * n_out + o];
+                        let v = values.get(i, f.chan, o);
                         if v == ZERO {
                             continue;
                         }
@@ -464,6 +496,7 @@ impl Job<'_> {
             }
             for bl in &blocks {
                 for k in bl.start..bl.end {
+                    self.prefetch(k, None);
                     if !self.footprint::<R>(self.layout.order[k], tx, &mut f) {
                         continue;
                     }
@@ -486,8 +519,8 @@ impl Job<'_> {
 
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "avx2,fma")]
-fn spread_band_avx<const L: usize>(job: &Job, vals: &[Complex64], grids: &mut BandGrids) {
-    job.spread_band::<AvxRows, L>(vals, grids)
+fn spread_band_avx<const L: usize>(job: &Job, values: &GridValues, grids: &mut BandGrids) {
+    job.spread_band::<AvxRows, L>(values, grids)
 }
 
 #[cfg(target_arch = "x86_64")]
@@ -519,12 +552,12 @@ fn band_rows<'a>(
 
 impl GridPlan {
     /// Spread every sample of `layout` that touches plane `plane` (None: the only plane) into
-    /// `grids` (one per output), with values `vals[k · n_out + o]` per sorted sample k.
+    /// `grids` (one per output of `values`).
     pub(super) fn spread_plane(
         &self,
         samples: &Samples,
         layout: &Layout,
-        vals: &[Complex64],
+        values: &GridValues,
         plane: Option<usize>,
         grids: &mut [Vec<Complex64>],
     ) {
@@ -560,17 +593,17 @@ impl GridPlan {
                 match (simd, lanes) {
                     #[cfg(target_arch = "x86_64")]
                     // SAFETY: Simd::detect found AVX2 and FMA on this CPU.
-                    (Simd::Avx2Fma, 4) => unsafe { spread_band_avx::<4>(&job, vals, &mut g) },
+                    (Simd::Avx2Fma, 4) => unsafe { spread_band_avx::<4>(&job, values, &mut g) },
                     #[cfg(target_arch = "x86_64")]
-                    (Simd::Avx2Fma, 8) => unsafe { spread_band_avx::<8>(&job, vals, &mut g) },
+                    (Simd::Avx2Fma, 8) => unsafe { spread_band_avx::<8>(&job, values, &mut g) },
                     #[cfg(target_arch = "x86_64")]
-                    (Simd::Avx2Fma, 12) => unsafe { spread_band_avx::<12>(&job, vals, &mut g) },
+                    (Simd::Avx2Fma, 12) => unsafe { spread_band_avx::<12>(&job, values, &mut g) },
                     #[cfg(target_arch = "x86_64")]
-                    (Simd::Avx2Fma, _) => unsafe { spread_band_avx::<16>(&job, vals, &mut g) },
-                    (_, 4) => job.spread_band::<ScalarRows, 4>(vals, &mut g),
-                    (_, 8) => job.spread_band::<ScalarRows, 8>(vals, &mut g),
-                    (_, 12) => job.spread_band::<ScalarRows, 12>(vals, &mut g),
-                    _ => job.spread_band::<ScalarRows, 16>(vals, &mut g),
+                    (Simd::Avx2Fma, _) => unsafe { spread_band_avx::<16>(&job, values, &mut g) },
+                    (_, 4) => job.spread_band::<ScalarRows, 4>(values, &mut g),
+                    (_, 8) => job.spread_band::<ScalarRows, 8>(values, &mut g),
+                    (_, 12) => job.spread_band::<ScalarRows, 12>(values, &mut g),
+                    _ => job.spread_band::<ScalarRows, 16>(values, &mut g),
                 }
             });
         }
