@@ -249,6 +249,9 @@ fn repeated_calls_give_the_same_bits() {
     let y = random_values(&mut r, vis.data.dim());
     let d1 = op.degrid(&vis, std::slice::from_ref(&x), &[ones(3)]).expect("degrid");
     let g1 = grid_one(&op, &vis, &y);
+    // A degrid of another image in between leaves other values in the reused grids.
+    let other = random_image(&mut r, 32, 32);
+    op.degrid(&vis, std::slice::from_ref(&other), &[ones(3)]).expect("degrid");
     let d2 = op.degrid(&vis, std::slice::from_ref(&x), &[ones(3)]).expect("degrid");
     let g2 = grid_one(&op, &vis, &y);
     let g3 = grid_one(&op, &vis, &y);

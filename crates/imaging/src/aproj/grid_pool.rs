@@ -42,6 +42,25 @@ impl GridPool {
         out
     }
 
+    /// `count` buffers of `len` values whose contents are unspecified (stale values of earlier
+    /// calls), for callers that write every value they later read.
+    pub fn take_any(&self, count: usize, len: usize) -> Vec<Vec<Complex64>> {
+        let mut out = Vec::with_capacity(count);
+        {
+            let mut free = self.free.lock().unwrap_or_else(|e| e.into_inner());
+            // Dirty buffers first, so clean ones stay for `take`.
+            free.sort_by_key(|(_, clean)| !*clean);
+            while out.len() < count {
+                match free.iter().rposition(|(b, _)| b.len() == len) {
+                    Some(i) => out.push(free.swap_remove(i).0),
+                    None => break,
+                }
+            }
+        }
+        out.resize_with(count, || vec![Complex64::new(0.0, 0.0); len]);
+        out
+    }
+
     /// Return buffers; `zero` says the caller left every one of them all zero.
     pub fn give_back(&self, buffers: Vec<Vec<Complex64>>, zero: bool) {
         let mut free = self.free.lock().unwrap_or_else(|e| e.into_inner());
@@ -70,5 +89,7 @@ mod tests {
         assert_eq!(reused, 2);
         let c = pool.take(1, 5);
         assert_eq!(c[0].len(), 5);
+        pool.give_back(b, true);
+        assert_eq!(pool.take_any(4, 8).len(), 4);
     }
 }

@@ -495,7 +495,9 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
                 })
                 .collect();
             let mut screens = Screens::new(&self.plan, &self.correction, -1.0);
-            let mut ring = self.pool.take(window * n_img, px * py);
+            // Stale values are never read: a plane's transform writes every grid row that
+            // its samples read (`plane_rows`).
+            let mut ring = self.pool.take_any(window * n_img, px * py);
             let mut holds = vec![usize::MAX; window];
             for (p, bucket) in buckets.iter().enumerate() {
                 if bucket.is_empty() {
