@@ -164,9 +164,11 @@ impl GridPlan {
                 if !rows[y0..y0 + n_rows].iter().any(|&t| t) {
                     return;
                 }
+                // The image columns fill grid columns [0, nx/2) and [px − nx/2, px) below; only
+                // the gap between them needs zeros.
                 for (r, line) in lines.chunks_mut(px).enumerate() {
                     if rows[y0 + r] {
-                        line.iter_mut().for_each(|v| *v = ZERO);
+                        line[nx - nx / 2..px - nx / 2].iter_mut().for_each(|v| *v = ZERO);
                     }
                 }
                 for (ix, &x) in gx.iter().enumerate() {

@@ -17,7 +17,7 @@
 #[cfg(target_arch = "x86_64")]
 use super::tile_rows::AvxRows;
 use super::tile_rows::{prefetch, ScalarRows, Simd, TileRows};
-use super::Samples;
+use super::{ceil_i64, Samples};
 use crate::kernel_poly::MAX_TAPS;
 use crate::operator::GridOutput;
 use crate::plan::GridPlan;
@@ -350,6 +350,32 @@ impl Job<'_> {
         }
     }
 
+    /// The rectangle of the tile buffer that the footprints of `blocks` (tile column `tx`) on
+    /// the job's plane cover (None when none is on it): their first cells are ⌈s − W/2⌉, as
+    /// the taps compute them.
+    fn window(&self, tx: u32, blocks: &[Block]) -> Option<Rect> {
+        let plan = self.plan;
+        let map = &self.layout.map;
+        let w = plan.kernel.support();
+        let half = 0.5 * w as f64;
+        let mut rect = None;
+        for bl in blocks {
+            for &i in &self.layout.order[bl.start..bl.end] {
+                let (_, sx, sy, sw) = self.samples.at(plan, i);
+                if let Some(p) = self.plane {
+                    let (first, count) = plan.plane_span(sw);
+                    if p < first || p >= first + count {
+                        continue;
+                    }
+                }
+                let dx = wrap(ceil_i64(sx - half), map.pad_nx) - tx as usize * TILE;
+                let dy = wrap(ceil_i64(sy - half), map.pad_ny) - map.starts[self.band];
+                Rect::grow(&mut rect, dx, dy, w);
+            }
+        }
+        rect
+    }
+
     /// Tile groups of the band: runs of blocks with one tile column.
     fn tile_groups(&self) -> Vec<(u32, Vec<Block>)> {
         let w = self.plan.kernel.support();
@@ -464,30 +490,31 @@ impl Job<'_> {
         let (px, py) = (map.pad_nx, map.pad_ny);
         let w = self.plan.kernel.support();
         let start = map.starts[self.band];
-        // The tile's window: footprints start in its rows and first TILE columns; the vector
-        // loops read L lanes from a footprint's first column.
-        let (rows, cols) = (map.starts[self.band + 1] - start + w - 1, TILE - 1 + L);
         let first_sample = self.layout.band_samples[self.band];
         let mut buf = vec![0.0f64; 2 * grids.len() * BUFFER];
         let mut f = Footprint::new();
         for (tx, blocks) in self.tile_groups() {
             let x0 = tx as usize * TILE;
+            let Some(rect) = self.window(tx, &blocks) else { continue };
+            // The vector loops read L lanes from a footprint's first column.
+            let (c0, c1) = (rect.c0, rect.c1 - w + L);
             for (grid, chunk) in grids.iter().zip(buf.chunks_exact_mut(2 * BUFFER)) {
                 let (re, im) = chunk.split_at_mut(BUFFER);
-                for r in 0..rows {
+                for r in rect.r0..rect.r1 {
                     let y = (start + r) % py;
                     let line = &grid[y * px..(y + 1) * px];
-                    let (re, im) = (&mut re[r * STRIDE..][..cols], &mut im[r * STRIDE..][..cols]);
-                    if x0 + cols <= px {
+                    let row = r * STRIDE;
+                    let (re, im) = (&mut re[row + c0..row + c1], &mut im[row + c0..row + c1]);
+                    if x0 + c1 <= px {
                         for ((a, b), g) in
-                            re.iter_mut().zip(im.iter_mut()).zip(&line[x0..x0 + cols])
+                            re.iter_mut().zip(im.iter_mut()).zip(&line[x0 + c0..x0 + c1])
                         {
                             *a = g.re;
                             *b = g.im;
                         }
                     } else {
                         for (c, (a, b)) in re.iter_mut().zip(im.iter_mut()).enumerate() {
-                            let g = line[(x0 + c) % px];
+                            let g = line[(x0 + c0 + c) % px];
                             *a = g.re;
                             *b = g.im;
                         }
