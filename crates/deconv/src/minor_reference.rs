@@ -413,7 +413,7 @@ mod tests {
         );
         // Selection between refreshes works on residuals a few per cent off, so the order of
         // components differs; the number needed should not differ by more than a tenth (our
-        // tolerance for "similar"; measured 4097 against 4100).
+        // tolerance for "similar"; measured 4101 against 4100).
         let ratio = patch.iterations as f64 / whole.iterations as f64;
         eprintln!(
             "whole PSF {} components, flux {:.6}; patch {} components, flux {:.6}",

@@ -99,47 +99,71 @@ impl PsfSpectra {
         (self.ny, self.nx) == (ny, nx)
     }
 
-    /// R_i = start_i − Σ_j PSF_{i+j} ⊛ delta_j for the N terms (all images `ny × nx`).
-    pub fn residuals(&self, start: &[Array2<f64>], delta: &[Array2<f64>]) -> Vec<Array2<f64>> {
+    /// R_i = start_i − Σ_j PSF_{i+j} ⊛ delta_j for the N terms (all images `ny × nx`), with
+    /// working buffers kept in `scratch` between calls.
+    pub fn residuals(
+        &self,
+        start: &[Array2<f64>],
+        delta: &[Array2<f64>],
+        scratch: &mut RefreshScratch,
+    ) -> Vec<Array2<f64>> {
         let (ny, nx, py, px) = (self.ny, self.nx, self.py, self.px);
         let n = delta.len();
-        let transforms: Vec<Vec<C64>> = delta
-            .iter()
-            .map(|d| {
-                let mut buf = vec![C64::new(0.0, 0.0); ny * px];
-                for ((y, x), &v) in d.indexed_iter() {
-                    buf[y * px + x].re = v;
+        let zero = C64::new(0.0, 0.0);
+        // Input terms in pairs: the transform Z of a + i b gives both, A(k) = (Z(k) +
+        // conj Z(−k)) / 2 and B(k) = (Z(k) − conj Z(−k)) / 2i, since a and b are real.
+        let n_pairs = n.div_ceil(2);
+        scratch.packed.resize_with(n_pairs, Vec::new);
+        for (pair, packed) in scratch.packed.iter_mut().enumerate() {
+            scratch.rows.clear();
+            scratch.rows.resize(ny * px, zero);
+            let (a, b) = (&delta[2 * pair], delta.get(2 * pair + 1));
+            for ((y, x), &v) in a.indexed_iter() {
+                scratch.rows[y * px + x].re = v;
+            }
+            if let Some(b) = b {
+                for ((y, x), &v) in b.indexed_iter() {
+                    scratch.rows[y * px + x].im = v;
                 }
-                self.forward(buf, ny)
-            })
-            .collect();
-        // Output terms in pairs: the inverse transform of X_a + i X_b is x_a + i x_b with both
-        // real, so one inverse FFT gives two convolutions.
+            }
+            self.forward_into(&mut scratch.rows, ny, packed);
+        }
+        // Output terms in pairs too: the inverse transform of X_a + i X_b is x_a + i x_b with
+        // both real, so one inverse FFT gives two convolutions.
         let norm = 1.0 / (py * px) as f64;
         let mut out: Vec<Array2<f64>> = start.to_vec();
+        let packed = &scratch.packed;
         for first in (0..n).step_by(2) {
             let second = (first + 1 < n).then_some(first + 1);
-            let mut acc = vec![C64::new(0.0, 0.0); px * py];
-            let i_unit = C64::new(0.0, 1.0);
-            acc.par_chunks_mut(py).enumerate().for_each(|(kx, col)| {
+            scratch.acc.resize(px * py, zero);
+            scratch.acc.par_chunks_mut(py).enumerate().for_each(|(kx, col)| {
                 let base = kx * py;
-                for (ky, a) in col.iter_mut().enumerate() {
-                    let mut sum_a = C64::new(0.0, 0.0);
-                    let mut sum_b = C64::new(0.0, 0.0);
-                    for (j, t) in transforms.iter().enumerate() {
-                        let v = t[base + ky];
-                        sum_a += self.spectra[first + j][base + ky] * v;
-                        if let Some(b) = second {
-                            sum_b += self.spectra[b + j][base + ky] * v;
+                let base_m = ((px - kx) % px) * py;
+                for (ky, acc) in col.iter_mut().enumerate() {
+                    let (k, km) = (base + ky, base_m + (py - ky) % py);
+                    let mut sum_a = zero;
+                    let mut sum_b = zero;
+                    for (pair, z) in packed.iter().enumerate() {
+                        let (zk, zm) = (z[k], z[km].conj());
+                        let xa = (zk + zm) * 0.5;
+                        let xb = (zk - zm) * C64::new(0.0, -0.5);
+                        for (j, x) in [(2 * pair, xa), (2 * pair + 1, xb)] {
+                            if j >= n {
+                                continue;
+                            }
+                            sum_a += self.spectra[first + j][k] * x;
+                            if let Some(b) = second {
+                                sum_b += self.spectra[b + j][k] * x;
+                            }
                         }
                     }
-                    *a = sum_a + i_unit * sum_b;
+                    *acc = sum_a + C64::new(0.0, 1.0) * sum_b;
                 }
             });
-            let conv = self.inverse(acc);
+            self.inverse_into(&mut scratch.acc, &mut scratch.rows);
             for y in 0..ny {
                 for x in 0..nx {
-                    let v = conv[y * nx + x] * norm;
+                    let v = scratch.rows[y * nx + x] * norm;
                     out[first][[y, x]] -= v.re;
                     if let Some(b) = second {
                         out[b][[y, x]] -= v.im;
@@ -153,16 +177,24 @@ impl PsfSpectra {
     /// Unnormalised 2-D FFT of a `rows × px` row-major buffer (rows beyond `rows` up to `py` are
     /// zero), returned column-major (`[kx * py + ky]`).
     fn forward(&self, mut buf: Vec<C64>, rows: usize) -> Vec<C64> {
+        let mut cols = Vec::new();
+        self.forward_into(&mut buf, rows, &mut cols);
+        cols
+    }
+
+    /// [`Self::forward`] into `cols` (resized); `buf` is overwritten.
+    fn forward_into(&self, buf: &mut [C64], rows: usize, cols: &mut Vec<C64>) {
         let (py, px) = (self.py, self.px);
         let row_fft = &self.row_fwd;
         buf.par_chunks_mut(px).for_each_init(
             || vec![C64::new(0.0, 0.0); row_fft.get_inplace_scratch_len()],
             |scratch, row| row_fft.process_with_scratch(row, scratch),
         );
-        let mut cols = vec![C64::new(0.0, 0.0); px * py];
+        cols.resize(px * py, C64::new(0.0, 0.0));
+        let buf = &*buf;
         cols.par_chunks_mut(py).enumerate().for_each(|(kx, col)| {
-            for (y, c) in col.iter_mut().enumerate().take(rows) {
-                *c = buf[y * px + kx];
+            for (y, c) in col.iter_mut().enumerate() {
+                *c = if y < rows { buf[y * px + kx] } else { C64::new(0.0, 0.0) };
             }
         });
         let col_fft = &self.col_fwd;
@@ -170,26 +202,24 @@ impl PsfSpectra {
             || vec![C64::new(0.0, 0.0); col_fft.get_inplace_scratch_len()],
             |scratch, col| col_fft.process_with_scratch(col, scratch),
         );
-        cols
     }
 
     /// Unnormalised inverse of [`Self::forward`]: the first `ny` rows, first `nx` columns,
-    /// row-major.
-    fn inverse(&self, mut cols: Vec<C64>) -> Vec<C64> {
+    /// row-major, into `out` (resized); `cols` is overwritten.
+    fn inverse_into(&self, cols: &mut [C64], out: &mut Vec<C64>) {
         let (ny, nx, py, px) = (self.ny, self.nx, self.py, self.px);
         let col_fft = &self.col_inv;
         cols.par_chunks_mut(py).for_each_init(
             || vec![C64::new(0.0, 0.0); col_fft.get_inplace_scratch_len()],
             |scratch, col| col_fft.process_with_scratch(col, scratch),
         );
+        let cols = &*cols;
         let row_fft = &self.row_inv;
-        let mut out = vec![C64::new(0.0, 0.0); ny * nx];
+        out.resize(ny * nx, C64::new(0.0, 0.0));
         out.par_chunks_mut(nx).enumerate().for_each_init(
             || {
-                (
-                    vec![C64::new(0.0, 0.0); px],
-                    vec![C64::new(0.0, 0.0); row_fft.get_inplace_scratch_len()],
-                )
+                let scratch = vec![C64::new(0.0, 0.0); row_fft.get_inplace_scratch_len()];
+                (vec![C64::new(0.0, 0.0); px], scratch)
             },
             |(row, scratch), (y, dst)| {
                 for (kx, r) in row.iter_mut().enumerate() {
@@ -199,8 +229,17 @@ impl PsfSpectra {
                 dst.copy_from_slice(&row[..nx]);
             },
         );
-        out
     }
+}
+
+/// Working buffers of [`PsfSpectra::residuals`], kept between the refreshes of a minor cycle
+/// (each is an FFT grid of several tens of MB at realistic sizes; allocating them afresh made
+/// the kernel map and clear their pages every time).
+#[derive(Debug, Default)]
+pub(crate) struct RefreshScratch {
+    rows: Vec<C64>,
+    packed: Vec<Vec<C64>>,
+    acc: Vec<C64>,
 }
 
 /// Smallest n' ≥ n whose only prime factors are 2, 3 and 5.
@@ -284,7 +323,10 @@ mod tests {
             assert!(spectra.fits(ny, nx));
             let start: Vec<_> = (0..nterms).map(|i| image(ny, nx, i)).collect();
             let delta: Vec<_> = (0..nterms).map(|i| image(ny, nx, 10 + i) * 0.1).collect();
-            let fast = spectra.residuals(&start, &delta);
+            let mut scratch = RefreshScratch::default();
+            let fast = spectra.residuals(&start, &delta, &mut scratch);
+            // A second call with the same scratch gives the same bits.
+            assert_eq!(fast, spectra.residuals(&start, &delta, &mut scratch));
             let slow = direct(&psfs, &start, &delta);
             for (f, s) in fast.iter().zip(&slow) {
                 let scale = s.iter().fold(1.0f64, |m, v| m.max(v.abs()));
