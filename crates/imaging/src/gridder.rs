@@ -249,7 +249,7 @@ impl ImagingOperator for GridPlan {
         let nx = self.geometry.nx;
         let (px, py) = (self.pad_nx, self.pad_ny);
         let (n_rows, nc, np) = (vis.n_rows(), vis.n_channels(), vis.n_correlations());
-        let mut out = vec![ZERO; n_rows * nc];
+        let mut out = Array3::<Complex64>::zeros((n_rows, nc, np));
         if !images.is_empty() {
             let samples = Samples::new(self, vis);
             let layout = self.layout(&samples, n_rows, |_| true);
@@ -281,10 +281,12 @@ impl ImagingOperator for GridPlan {
                 }
                 self.interpolate_plane(&samples, &layout, &grids, channel_factors, plane, &mut acc);
             }
+            // The same value for every correlation of the sample.
+            let all = out.as_slice_mut().expect("fresh array is contiguous");
             for (&i, v) in layout.order.iter().zip(acc) {
-                out[i] = v;
+                all[i * np..(i + 1) * np].iter_mut().for_each(|x| *x = v);
             }
         }
-        Ok(Array3::from_shape_fn((n_rows, nc, np), |(r, c, _)| out[r * nc + c]))
+        Ok(out)
     }
 }

@@ -358,15 +358,19 @@ impl Job<'_> {
         let map = &self.layout.map;
         let w = plan.kernel.support();
         let half = 0.5 * w as f64;
+        let Some(p) = self.plane else {
+            // Without w planes every sample is on the plane: the whole window, which is cheaper
+            // to load than to narrow down.
+            let rows = map.starts[self.band + 1] - map.starts[self.band];
+            return Some(Rect { c0: 0, c1: TILE - 1 + w, r0: 0, r1: rows - 1 + w });
+        };
         let mut rect = None;
         for bl in blocks {
             for &i in &self.layout.order[bl.start..bl.end] {
                 let (_, sx, sy, sw) = self.samples.at(plan, i);
-                if let Some(p) = self.plane {
-                    let (first, count) = plan.plane_span(sw);
-                    if p < first || p >= first + count {
-                        continue;
-                    }
+                let (first, count) = plan.plane_span(sw);
+                if p < first || p >= first + count {
+                    continue;
                 }
                 let dx = wrap(ceil_i64(sx - half), map.pad_nx) - tx as usize * TILE;
                 let dy = wrap(ceil_i64(sy - half), map.pad_ny) - map.starts[self.band];
@@ -376,17 +380,19 @@ impl Job<'_> {
         rect
     }
 
-    /// Tile groups of the band: runs of blocks with one tile column.
-    fn tile_groups(&self) -> Vec<(u32, Vec<Block>)> {
+    /// Tile groups of the band: the band's blocks on the job's plane, and runs of them with one
+    /// tile column (tile column, first block, end).
+    fn tile_groups(&self) -> (Vec<Block>, Vec<(u32, usize, usize)>) {
         let w = self.plan.kernel.support();
-        let mut groups: Vec<(u32, Vec<Block>)> = Vec::new();
-        for b in self.layout.blocks_on(self.band, self.plane, w) {
+        let on: Vec<Block> = self.layout.blocks_on(self.band, self.plane, w).copied().collect();
+        let mut groups: Vec<(u32, usize, usize)> = Vec::new();
+        for (k, b) in on.iter().enumerate() {
             match groups.last_mut() {
-                Some((tx, list)) if *tx == b.tx => list.push(*b),
-                _ => groups.push((b.tx, vec![*b])),
+                Some((tx, _, end)) if *tx == b.tx => *end = k + 1,
+                _ => groups.push((b.tx, k, k + 1)),
             }
         }
-        groups
+        (on, groups)
     }
 
     /// Spread the band's samples on the job's plane, with their `values`, into `grids`.
@@ -396,9 +402,11 @@ impl Job<'_> {
         let n_out = grids.own.len();
         let mut buf = vec![0.0f64; 2 * n_out * BUFFER];
         let mut f = Footprint::new();
-        for (tx, blocks) in self.tile_groups() {
+        let (on, groups) = self.tile_groups();
+        for &(tx, a, z) in &groups {
+            let blocks = &on[a..z];
             let mut rect = None;
-            for bl in &blocks {
+            for bl in blocks {
                 for k in bl.start..bl.end {
                     self.prefetch(k, Some(values));
                     let i = self.layout.order[k];
@@ -493,9 +501,11 @@ impl Job<'_> {
         let first_sample = self.layout.band_samples[self.band];
         let mut buf = vec![0.0f64; 2 * grids.len() * BUFFER];
         let mut f = Footprint::new();
-        for (tx, blocks) in self.tile_groups() {
+        let (on, groups) = self.tile_groups();
+        for &(tx, a, z) in &groups {
+            let blocks = &on[a..z];
             let x0 = tx as usize * TILE;
-            let Some(rect) = self.window(tx, &blocks) else { continue };
+            let Some(rect) = self.window(tx, blocks) else { continue };
             // The vector loops read L lanes from a footprint's first column.
             let (c0, c1) = (rect.c0, rect.c1 - w + L);
             for (grid, chunk) in grids.iter().zip(buf.chunks_exact_mut(2 * BUFFER)) {
@@ -521,7 +531,7 @@ impl Job<'_> {
                     }
                 }
             }
-            for bl in &blocks {
+            for bl in blocks {
                 for k in bl.start..bl.end {
                     self.prefetch(k, None);
                     if !self.footprint::<R>(self.layout.order[k], tx, &mut f) {
