@@ -2,8 +2,9 @@
 //! scattered into (or gathered from) the whole padded grid one cell at a time, with the exact
 //! kernel φ(z) = exp(β(√(1 − z²) − 1)) of Barnett, Magland & af Klinteberg (2019, eq. 1.8)
 //! through [`EsKernel::taps`] and indices wrapped modulo the grid size. The grid sizes below give
-//! one band (footprints wrapping onto themselves), an odd and an even number of bands, and rows
-//! and columns that are not multiples of the tile size; the accuracies give every lane count.
+//! grids narrower than a tile and than the kernel, one band (footprints wrapping onto
+//! themselves), an odd and an even number of bands, and rows and columns that are not multiples
+//! of the tile size; the accuracies give every lane count.
 use super::*;
 use crate::kernel::EsKernel;
 use crate::params::{GridderParams, WRange, WTerm};
@@ -11,7 +12,8 @@ use beamfloor_core::Correlation;
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 
-const GEOMETRIES: [(usize, usize, f64); 3] = [(10, 12, 0.02), (24, 20, 0.01), (40, 36, 0.006)];
+const GEOMETRIES: [(usize, usize, f64); 4] =
+    [(4, 6, 0.05), (10, 12, 0.02), (24, 20, 0.01), (40, 36, 0.006)];
 const EPSILONS: [f64; 4] = [1e-3, 1e-6, 1e-9, 1e-13];
 
 fn visset(rng: &mut ChaCha8Rng, g: &ImageGeometry, w_max: f64) -> VisSet {
