@@ -214,6 +214,7 @@ impl ImagingOperator for GridPlan {
         let mut images_t = vec![vec![0.0; nx * ny]; n_out];
         let correction = self.inverse_correction.as_slice().expect("plan arrays are contiguous");
         let mut screens = Screens::new(self, correction, 1.0);
+        let mut fresh = true;
         for p in 0..self.n_w_planes() {
             if !layout.has_plane(p, w) {
                 continue;
@@ -224,15 +225,16 @@ impl ImagingOperator for GridPlan {
             layout.mark_rows(plane, w, &mut rows);
             let screen = screens.plane(p);
             for (grid, image_t) in grids.iter_mut().zip(images_t.iter_mut()) {
-                self.add_plane_to_image(grid, &rows, screen, image_t);
+                self.add_plane_to_image(grid, &rows, screen, image_t, fresh);
             }
+            fresh = false;
         }
         Ok(images_t
             .iter()
             .map(|image_t| {
                 let mut image = Array2::<f64>::zeros((ny, nx));
                 let img = image.as_slice_mut().expect("fresh array is contiguous");
-                self.add_untransposed(image_t, img);
+                self.untranspose_into(image_t, img);
                 image
             })
             .collect())

@@ -55,7 +55,10 @@ impl GridPlan {
     }
 
     /// Grid → image for one plane: inverse-transform the rows of `grid` marked in `rows` (the
-    /// others must be zero), then the image columns, and add Re(result · screen) to `image_t`.
+    /// others must be zero), then the image columns, and add Re(result · screen) to `image_t`
+    /// (or, with `overwrite`, store it there: for the first plane into a fresh image, whose
+    /// pages are then first touched by a write; a read first would map the shared zero page and
+    /// the write after it cost a copy-on-write fault with a TLB flush on every core).
     /// `image_t` and `screen_t` are transposed images (`[ix][iy]`, length nx · ny). On return
     /// `grid` is all zero again (ready for the next plane).
     pub(crate) fn add_plane_to_image(
@@ -64,6 +67,7 @@ impl GridPlan {
         rows: &[bool],
         screen_t: &[Complex64],
         image_t: &mut [f64],
+        overwrite: bool,
     ) {
         let (px, py) = (self.pad_nx, self.pad_ny);
         let ny = self.geometry.ny;
@@ -104,8 +108,12 @@ impl GridPlan {
                         let h = ny / 2;
                         let top = &col[py - h..];
                         let bottom = &col[..ny - h];
-                        for ((v, s), g) in o.iter_mut().zip(s).zip(top.iter().chain(bottom)) {
-                            *v += g.re * s.re - g.im * s.im;
+                        let values = s.iter().zip(top.iter().chain(bottom));
+                        let values = values.map(|(s, g)| g.re * s.re - g.im * s.im);
+                        if overwrite {
+                            o.iter_mut().zip(values).for_each(|(v, x)| *v = x);
+                        } else {
+                            o.iter_mut().zip(values).for_each(|(v, x)| *v += x);
                         }
                     }
                 },
@@ -207,12 +215,13 @@ impl GridPlan {
         (0..nx * ny).map(|k| image[(k % ny) * nx + k / ny]).collect()
     }
 
-    /// Row-major `[iy][ix]` image of a transposed one, added into `image`.
-    pub(crate) fn add_untransposed(&self, image_t: &[f64], image: &mut [f64]) {
+    /// Row-major `[iy][ix]` image of a transposed one, stored into `image` (written without
+    /// being read, see [`GridPlan::add_plane_to_image`]).
+    pub(crate) fn untranspose_into(&self, image_t: &[f64], image: &mut [f64]) {
         let (nx, ny) = (self.geometry.nx, self.geometry.ny);
         image.par_chunks_mut(nx).enumerate().for_each(|(iy, line)| {
             for (ix, v) in line.iter_mut().enumerate() {
-                *v += image_t[ix * ny + iy];
+                *v = image_t[ix * ny + iy];
             }
         });
     }
@@ -256,7 +265,7 @@ impl Screens {
         let current = if stacked {
             vec![ZERO; correction_t.len()]
         } else {
-            correction_t.iter().map(|&c| Complex64::new(c, 0.0)).collect()
+            correction_t.par_iter().map(|&c| Complex64::new(c, 0.0)).collect()
         };
         Self { correction_t, x_t, step, current, sign, w0, dw, at: None, stacked }
     }
@@ -339,7 +348,7 @@ mod tests {
             let mut grid = grid0.clone();
             let screen_t = p.transposed_complex(&screen);
             let mut image_t = vec![0.5; nx * ny];
-            p.add_plane_to_image(&mut grid, &rows, &screen_t, &mut image_t);
+            p.add_plane_to_image(&mut grid, &rows, &screen_t, &mut image_t, false);
             assert!(grid.iter().all(|v| *v == Complex64::new(0.0, 0.0)), "grid left non-zero");
             for iy in 0..ny {
                 for ix in 0..nx {

@@ -319,7 +319,8 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
             let n_out = outs.len();
             let mut screens = Screens::new(&self.plan, &self.correction, 1.0);
             let mut images_t = vec![vec![0.0; g.nx * g.ny]; n_out];
-            // Slot-major ring: grid of plane p, output o at ring[(p mod W) · n_out + o].
+            let mut fresh = true; // no plane added to images_t yet
+                                  // Slot-major ring: grid of plane p, output o at ring[(p mod W) · n_out + o].
             let mut ring = self.pool.take(window * n_out, px * py);
             let mut touched = vec![false; window];
             for (p, bucket) in buckets.iter().enumerate() {
@@ -433,14 +434,15 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
                 for (o, image_t) in images_t.iter_mut().enumerate() {
                     let grid = &mut ring[slot * n_out + o];
                     // Leaves the grid zero again for plane p + W.
-                    self.plan.add_plane_to_image(grid, &plane_rows[p], screen, image_t);
+                    self.plan.add_plane_to_image(grid, &plane_rows[p], screen, image_t, fresh);
                 }
+                fresh = false;
             }
             // Every slot written was transformed and left zero again.
             self.pool.give_back(ring, true);
             for (image, image_t) in images[first..first + n_out].iter_mut().zip(&images_t) {
                 let img = image.as_slice_mut().expect("fresh array is contiguous");
-                self.plan.add_untransposed(image_t, img);
+                self.plan.untranspose_into(image_t, img);
             }
         }
         Ok(images)

@@ -1,10 +1,12 @@
 use super::kernel_operator::KernelAProjection;
-use super::screens::a_screen;
+use super::kernel_operator::Side;
+use super::screens::{sampled_a_screen, screen_step};
 use crate::error::ImagingError;
 use crate::operator::ImagingOperator;
 use beamfloor_core::{taylor_weight, Pol, VoltageBeam};
 use beamfloor_predict::VisSet;
-use ndarray::{Array2, Array3, Zip};
+use ndarray::{Array2, Array3};
+use rayon::prelude::*;
 
 impl<B: VoltageBeam + ?Sized> KernelAProjection<'_, B> {
     /// The sensitivity image W(l, m) = Σ w · A_grid(l, m) · A_data(l, m) / Σ w over every
@@ -102,9 +104,27 @@ impl<B: VoltageBeam + ?Sized> KernelAProjection<'_, B> {
             }
             let (bin, g, pol) =
                 (slot / (2 * layout.n_groups), (slot / 2) % layout.n_groups, Pol::BOTH[slot % 2]);
-            let fwd = a_screen(self.beam, geometry, bin, layout.forward_freqs[g], pol);
+            // Each screen is band-limited by its kernel's support: sample it accordingly.
+            let hand = slot % 2;
+            let pad = self.plan.pad_nx.min(self.plan.pad_ny);
+            let step = |side| screen_step(pad, layout.tables[layout.index(side, bin, g, hand)].2);
+            let fwd = sampled_a_screen(
+                self.beam,
+                geometry,
+                bin,
+                layout.forward_freqs[g],
+                pol,
+                step(Side::Forward),
+            );
             let grd = if self.is_wideband() {
-                a_screen(self.beam, geometry, bin, layout.gridding_freqs[g], pol)
+                sampled_a_screen(
+                    self.beam,
+                    geometry,
+                    bin,
+                    layout.gridding_freqs[g],
+                    pol,
+                    step(Side::Gridding),
+                )
             } else {
                 fwd.clone()
             };
@@ -113,10 +133,17 @@ impl<B: VoltageBeam + ?Sized> KernelAProjection<'_, B> {
                     continue;
                 }
                 channel_weights[c] += sum_w;
-                Zip::from(&mut images[c])
-                    .and(&fwd)
-                    .and(&grd)
-                    .for_each(|o, &a, &b| *o += sum_w * a * b);
+                const CHUNK: usize = 1 << 14;
+                let (a, b) = (contiguous(&fwd), contiguous(&grd));
+                let out = images[c].as_slice_mut().expect("fresh image is contiguous");
+                out.par_chunks_mut(CHUNK)
+                    .zip(a.par_chunks(CHUNK))
+                    .zip(b.par_chunks(CHUNK))
+                    .for_each(|((o, a), b)| {
+                        for ((o, a), b) in o.iter_mut().zip(a).zip(b) {
+                            *o += sum_w * a * b;
+                        }
+                    });
             }
         }
         let total: f64 = channel_weights.iter().sum();
@@ -134,6 +161,10 @@ impl<B: VoltageBeam + ?Sized> KernelAProjection<'_, B> {
         }
         Ok(ChannelSensitivities { images, weights: channel_weights })
     }
+}
+
+fn contiguous(image: &Array2<f64>) -> &[f64] {
+    image.as_slice().expect("screens are built contiguous")
 }
 
 /// Per-channel sensitivity images and weight sums ([`KernelAProjection::channel_sensitivities`]).
