@@ -335,9 +335,11 @@ const REFRESH_MAX: usize = 1 << 14;
 /// step; the levels are ours). A drift of this size can make a component land on a pixel whose
 /// exact residual is up to that fraction below the true peak, and its amplitude off by that
 /// fraction of one loop gain's step; the next refresh shows the exact residual of what was
-/// subtracted, so neither error accumulates.
-const DRIFT_LOW: f64 = 0.05;
-const DRIFT_HIGH: f64 = 0.2;
+/// subtracted, so neither error accumulates. (On the demo, 0.1/0.3 instead of 0.05/0.2 let the
+/// interval settle at 512 instead of 256 components with a drift of about 14 % of the peak; the
+/// measured floors moved by under 0.1 % and the refreshes' cost halved.)
+const DRIFT_LOW: f64 = 0.1;
+const DRIFT_HIGH: f64 = 0.3;
 
 /// The PSF-patch mode's exact refresh: the unsmoothed residuals at the start of the minor
 /// cycle, the model added since, and the adaptive number of components between refreshes.

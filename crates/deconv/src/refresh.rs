@@ -16,6 +16,7 @@
 //! stored at its offsets (zero where the offset is outside the PSF grid) gives the linear sum
 //! exactly, whatever the PSF's size.
 use crate::plan::MinorCyclePlan;
+use crate::MAX_TERMS;
 use ndarray::Array2;
 use rayon::prelude::*;
 use rustfft::num_complex::Complex;
@@ -137,27 +138,32 @@ impl PsfSpectra {
             let second = (first + 1 < n).then_some(first + 1);
             scratch.acc.resize(px * py, zero);
             scratch.acc.par_chunks_mut(py).enumerate().for_each(|(kx, col)| {
-                let base = kx * py;
-                let base_m = ((px - kx) % px) * py;
+                // Column kx of every spectrum, and the mirrored column (−kx mod P) of the packed
+                // inputs: Z(−k) for ky sits at (P − ky) mod P there.
+                let (base, base_m) = (kx * py, ((px - kx) % px) * py);
+                let spectra: [&[C64]; 2 * MAX_TERMS - 1] = std::array::from_fn(|t| {
+                    self.spectra.get(t).map_or(&[][..], |s| &s[base..base + py])
+                });
+                let zs: Vec<(&[C64], &[C64])> =
+                    packed.iter().map(|z| (&z[base..base + py], &z[base_m..base_m + py])).collect();
                 for (ky, acc) in col.iter_mut().enumerate() {
-                    let (k, km) = (base + ky, base_m + (py - ky) % py);
-                    let mut sum_a = zero;
-                    let mut sum_b = zero;
-                    for (pair, z) in packed.iter().enumerate() {
-                        let (zk, zm) = (z[k], z[km].conj());
-                        let xa = (zk + zm) * 0.5;
-                        let xb = (zk - zm) * C64::new(0.0, -0.5);
-                        for (j, x) in [(2 * pair, xa), (2 * pair + 1, xb)] {
-                            if j >= n {
-                                continue;
-                            }
-                            sum_a += self.spectra[first + j][k] * x;
-                            if let Some(b) = second {
-                                sum_b += self.spectra[b + j][k] * x;
-                            }
+                    let km = (py - ky) % py;
+                    // X_j(k) of every input term j.
+                    let mut x = [zero; MAX_TERMS];
+                    for (pair, (z, z_m)) in zs.iter().enumerate() {
+                        let (zk, zm) = (z[ky], z_m[km].conj());
+                        x[2 * pair] = (zk + zm) * 0.5;
+                        if 2 * pair + 1 < n {
+                            x[2 * pair + 1] = (zk - zm) * C64::new(0.0, -0.5);
                         }
                     }
-                    *acc = sum_a + C64::new(0.0, 1.0) * sum_b;
+                    let sum = |t: usize| -> C64 {
+                        x[..n].iter().enumerate().map(|(j, &x)| spectra[t + j][ky] * x).sum()
+                    };
+                    *acc = match second {
+                        Some(b) => sum(first) + C64::new(0.0, 1.0) * sum(b),
+                        None => sum(first),
+                    };
                 }
             });
             self.inverse_into(&mut scratch.acc, &mut scratch.rows);

@@ -209,7 +209,7 @@ impl ImagingOperator for GridPlan {
         });
         let values = GridValues { summed, n_src, outputs };
         let w = self.kernel.support();
-        let mut grids = vec![vec![ZERO; px * py]; n_out];
+        let mut grids = self.pool.take(n_out, px * py);
         let mut rows = vec![false; py];
         let mut images_t = vec![vec![0.0; nx * ny]; n_out];
         let correction = self.inverse_correction.as_slice().expect("plan arrays are contiguous");
@@ -229,6 +229,8 @@ impl ImagingOperator for GridPlan {
             }
             fresh = false;
         }
+        // Every plane's transform left its grid zero again.
+        self.pool.give_back(grids, true);
         Ok(images_t
             .iter()
             .map(|image_t| {
@@ -263,8 +265,10 @@ impl ImagingOperator for GridPlan {
                 })
                 .collect();
             let w = self.kernel.support();
-            let mut grids = vec![vec![ZERO; px * py]; images.len()];
-            let mut columns = vec![ZERO; nx * py];
+            // A plane's transform writes every grid row its samples read, so stale values
+            // elsewhere are never seen; `columns` is written before it is read.
+            let mut grids = self.pool.take_any(images.len(), px * py);
+            let mut columns = self.pool.take_any(1, nx * py).pop().expect("one buffer");
             let mut rows = vec![false; py];
             let mut acc = vec![ZERO; layout.order.len()];
             let correction =
@@ -283,6 +287,8 @@ impl ImagingOperator for GridPlan {
                 }
                 self.interpolate_plane(&samples, &layout, &grids, channel_factors, plane, &mut acc);
             }
+            grids.push(columns);
+            self.pool.give_back(grids, false);
             // The same value for every correlation of the sample.
             let all = out.as_slice_mut().expect("fresh array is contiguous");
             for (&i, v) in layout.order.iter().zip(acc) {

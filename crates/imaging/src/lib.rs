@@ -47,6 +47,7 @@ mod dirty;
 mod error;
 #[cfg(test)]
 mod fft2;
+mod grid_pool;
 mod gridder;
 mod kernel;
 mod kernel_poly;

@@ -1,4 +1,5 @@
 use crate::error::ImagingError;
+use crate::grid_pool::GridPool;
 use crate::kernel::EsKernel;
 use crate::kernel_poly::PolyKernel;
 use crate::params::{GridderParams, WRange, WTerm};
@@ -7,6 +8,7 @@ use beamfloor_core::ImageGeometry;
 use ndarray::Array2;
 use rayon::prelude::*;
 use rustfft::FftPlanner;
+use std::sync::Arc;
 
 /// Grid upsampling factor σ the kernel rule is made for (Barnett et al. 2019 use σ = 2).
 pub const UPSAMPLING: f64 = 2.0;
@@ -74,6 +76,8 @@ pub struct GridPlan {
     /// None when w is ignored (one plane at w = 0, no screen).
     pub(crate) planes: Option<WPlanes>,
     pub(crate) w_range: WRange,
+    /// Padded grids kept between calls (shared by clones of the plan).
+    pub(crate) pool: Arc<GridPool>,
 }
 
 impl GridPlan {
@@ -207,7 +211,14 @@ impl GridPlan {
             n_minus_1,
             planes,
             w_range,
+            pool: Arc::default(),
         })
+    }
+
+    /// A copy of the plan with an empty grid pool of its own (a clone shares the pool).
+    #[cfg(test)]
+    pub(crate) fn clone_without_pool(&self) -> Self {
+        Self { pool: Arc::default(), ..self.clone() }
     }
 
     /// The image geometry the plan was made for.

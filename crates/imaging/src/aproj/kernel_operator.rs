@@ -342,7 +342,7 @@ pub struct KernelAProjection<'a, B: VoltageBeam + ?Sized> {
     /// interpolation gain.
     pub(crate) correction: Vec<f64>,
     /// Padded grids reused between calls (shared by clones).
-    pub(crate) pool: Arc<super::grid_pool::GridPool>,
+    pub(crate) pool: Arc<crate::grid_pool::GridPool>,
 }
 
 // Manual impl: a derive would demand `B: Clone`, but only the reference is copied.

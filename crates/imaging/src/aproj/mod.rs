@@ -6,7 +6,6 @@
 
 mod conjugate;
 mod direct_beam;
-mod grid_pool;
 mod kernel_operator;
 mod kernel_passes;
 mod kernel_rows;

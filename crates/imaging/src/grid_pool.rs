@@ -1,9 +1,11 @@
-//! Padded grids kept between the calls of one [`crate::KernelAProjection`].
+//! Padded grids kept between the calls of one operator ([`crate::GridPlan`],
+//! [`crate::KernelAProjection`]).
 //!
-//! Each grid or degrid call needs a window of W w-plane grids per image (hundreds of MB at
-//! realistic sizes). Allocating them afresh every call made the kernel map and zero every page
-//! again: about a fifth of an A-projection run's time went to page faults and page clearing. The
-//! pool hands out buffers of the requested length that are all zero, reusing returned ones.
+//! Each grid or degrid call needs one padded grid per image (a window of W w-plane grids per
+//! image for A-projection: hundreds of MB at realistic sizes). Allocating them afresh every call
+//! made the kernel map and zero every page again: about a fifth of an A-projection run's time
+//! went to page faults and page clearing. The pool hands out buffers of the requested length
+//! that are all zero, reusing returned ones; an operator keeps one for its major cycles.
 use num_complex::Complex64;
 use std::sync::Mutex;
 
