@@ -68,7 +68,7 @@ pub use folder::{
     IN_PROGRESS_MARKER,
 };
 pub use noise::image_noise_jy;
-pub use operator::{build_operator, check_strategies};
+pub use operator::{build_operator, check_strategies, w_term_of};
 pub use pbcor::{beam_validity, divide_beam_taylor};
 pub use preflight::{
     available_memory_bytes, estimate_memory, kernel_table_memory, preflight, preflight_with_memory,
@@ -79,6 +79,6 @@ pub use quick_estimate::{QuickEstimate, SymmetrizedBeam};
 pub use residual::OperatorResiduals;
 pub use runner::{run_experiment, RunObserver, RunSummary, StrategySummary};
 pub use stokes_v::StokesV;
-pub use strategy::{image_strategy, BeamTaylor, StrategyImages};
+pub use strategy::{image_strategy, BeamTaylor, PsfCache, StrategyImages};
 pub use tables::{short_number, table_csv, table_json};
 pub use truth::{channel_weights, source_truths, truth_convolved_i0};

@@ -19,6 +19,18 @@ pub fn build_operator(
     geometry: ImageGeometry,
     w_range: WRange,
 ) -> Result<Box<dyn ImagingOperator>, RunError> {
+    let w_term = w_term_of(config, index)?;
+    let params = GridderParams { epsilon: config.imaging.accuracy, w_term };
+    let plan = GridPlan::new(geometry, &params, w_range).map_err(|source| RunError::Imaging {
+        strategy: config.strategy[index].name.clone(),
+        source,
+    })?;
+    Ok(Box::new(plan))
+}
+
+/// How the gridder under strategy `index` treats the w-term (see [`build_operator`]); an error
+/// for a w setting this build does not implement.
+pub fn w_term_of(config: &Config, index: usize) -> Result<WTerm, RunError> {
     let strategy = &config.strategy[index];
     let unsupported = |key, value: String, why| RunError::Unsupported {
         index,
@@ -48,10 +60,7 @@ pub fn build_operator(
              remove the key",
         ));
     }
-    let params = GridderParams { epsilon: config.imaging.accuracy, w_term };
-    let plan = GridPlan::new(geometry, &params, w_range)
-        .map_err(|source| RunError::Imaging { strategy: strategy.name.clone(), source })?;
-    Ok(Box::new(plan))
+    Ok(w_term)
 }
 
 /// Checks every strategy can be built (cheaply: on a tiny grid) before any heavy work starts.

@@ -13,7 +13,7 @@ use beamfloor_predict::VisSet;
 use super::outputs::{write_outputs, OutputContext};
 use super::quick_estimate::{quick_estimate, QuickEstimate};
 use super::stokes_v::{stokes_v, StokesV};
-use super::strategy::{image_strategy, BeamTaylor, StrategyImages};
+use super::strategy::{image_strategy, BeamTaylor, PsfCache, StrategyImages};
 use super::truth::{channel_weights, source_truths, truth_convolved_i0};
 use super::{check_strategies, image_noise_jy, RunError};
 use crate::config::{self, Config};
@@ -152,6 +152,7 @@ pub fn run_experiment(
         .iter()
         .map(|(i, e)| (config.strategy[*i].name.clone(), e.to_string()))
         .collect();
+    let mut psf_cache = PsfCache::default();
     for index in 0..count {
         if unavailable.iter().any(|(i, _)| *i == index) {
             continue;
@@ -170,6 +171,7 @@ pub fn run_experiment(
             geometry,
             sigma_img,
             &beam_taylor,
+            &mut psf_cache,
             &mut |report| observer.cycle(&name, report),
         );
         // A strategy whose CLEAN diverges is a result, not a crash: the others still run, and the

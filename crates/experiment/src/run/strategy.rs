@@ -8,14 +8,14 @@ use beamfloor_deconv::{
     MajorCycleParams, MajorStop, MinorCyclePlan, OnDivergence, RestoringBeam, ScaleSet,
     SpectralMapParams, Threshold,
 };
-use beamfloor_imaging::{GridOutput, ImagingOperator, TaylorTerms, WRange};
+use beamfloor_imaging::{GridOutput, ImagingOperator, TaylorTerms, WRange, WTerm};
 use beamfloor_predict::VisSet;
 use ndarray::{Array2, Array3};
 use num_complex::Complex64;
 
 use super::aproj::{binned_imaging_beam, build_a_operator, kernel_max_freq_hz};
 use super::channel_model::ChannelModel;
-use super::operator::build_operator;
+use super::operator::{build_operator, w_term_of};
 use super::pbcor::{beam_validity, divide_beam_taylor, gain_taylor};
 use super::RunError;
 use crate::config::{CleanThreshold, Config, Gridding};
@@ -55,13 +55,32 @@ pub struct StrategyImages {
 /// The averaged beam's Taylor coefficients P_t for a strategy (None: no beam to divide by).
 pub type BeamTaylor = Option<Vec<Array2<f64>>>;
 
+/// Spectral PSFs already made in one run, for the strategies after the first that need the same
+/// ones. A strategy's PSFs depend only on the run's visibilities, weights and geometry (the same
+/// for every strategy of a run), on the gridder that makes them (its w treatment; the accuracy
+/// is run-wide) and on the number of Taylor terms: "w", "a" and "wideband-a" strategies with
+/// the same Taylor terms all get theirs from the w-stacking gridder, bit for bit the same, and
+/// on the doubled PSF grid those w-stacked passes are the most expensive step of setting up a
+/// strategy. Use one cache per run (per set of visibilities and weights).
+#[derive(Debug, Default)]
+pub struct PsfCache {
+    entries: Vec<((WTerm, usize), Vec<Array2<f64>>)>,
+}
+
+impl PsfCache {
+    fn get(&self, key: (WTerm, usize)) -> Option<&Vec<Array2<f64>>> {
+        self.entries.iter().find(|(k, _)| *k == key).map(|(_, psfs)| psfs)
+    }
+}
+
 /// Images, deconvolves and restores strategy `index` of `config` on `vis`.
 ///
 /// `weights` are the imaging weights (zero where flagged), `sigma_img` the predicted thermal
 /// noise of the I0 image (Jy/beam), `beam_taylor` the averaged beam's Taylor coefficients for the
 /// primary-beam correction of plain and w gridding, `observation` the simulated observation
-/// (its timeline sets the A-projection strategies' parallactic-angle bins). `progress` receives
-/// each major cycle.
+/// (its timeline sets the A-projection strategies' parallactic-angle bins). `psf_cache` holds
+/// the PSFs of the run's earlier strategies (see [`PsfCache`]). `progress` receives each major
+/// cycle.
 #[allow(clippy::too_many_arguments)]
 pub fn image_strategy(
     config: &Config,
@@ -72,6 +91,7 @@ pub fn image_strategy(
     geometry: ImageGeometry,
     sigma_img: f64,
     beam_taylor: &BeamTaylor,
+    psf_cache: &mut PsfCache,
     progress: &mut dyn FnMut(&CycleReport),
 ) -> Result<StrategyImages, RunError> {
     let start = std::time::Instant::now();
@@ -130,21 +150,34 @@ pub fn image_strategy(
     // Spectral PSFs on a grid twice the image's size (the deconvolution crate's recommendation:
     // a component anywhere in the image then has its PSF patch over the whole image).
     let psf_geometry = ImageGeometry::new(2 * geometry.nx, 2 * geometry.ny, geometry.cell_rad);
-    let psf_operator = build_operator(config, index, psf_geometry, w_range)?;
-    let psf_values = weights.mapv(|w| Complex64::new(w, 0.0));
-    let outputs: Vec<GridOutput> = (0..2 * n_terms - 1)
-        .map(|t| GridOutput {
-            source: 0,
-            channel_factors: taylor.channel_weights(t, &vis.frequencies_hz),
-        })
-        .collect();
-    let sum_weights = weights.sum();
-    let mut psfs = psf_operator.grid(vis, &[psf_values.view()], &outputs).map_err(imaging)?;
-    drop(psf_operator);
-    for p in psfs.iter_mut() {
-        *p /= sum_weights;
-    }
-    super::guards::check_finite(&name, "spectral PSFs (weights through the kernel)", &psfs)?;
+    let psf_key = (w_term_of(config, index)?, n_terms);
+    let mut psfs = match psf_cache.get(psf_key) {
+        Some(psfs) => psfs.clone(),
+        None => {
+            let psf_operator = build_operator(config, index, psf_geometry, w_range)?;
+            let psf_values = weights.mapv(|w| Complex64::new(w, 0.0));
+            let outputs: Vec<GridOutput> = (0..2 * n_terms - 1)
+                .map(|t| GridOutput {
+                    source: 0,
+                    channel_factors: taylor.channel_weights(t, &vis.frequencies_hz),
+                })
+                .collect();
+            let sum_weights = weights.sum();
+            let mut psfs =
+                psf_operator.grid(vis, &[psf_values.view()], &outputs).map_err(imaging)?;
+            drop(psf_operator);
+            for p in psfs.iter_mut() {
+                *p /= sum_weights;
+            }
+            super::guards::check_finite(
+                &name,
+                "spectral PSFs (weights through the kernel)",
+                &psfs,
+            )?;
+            psf_cache.entries.push((psf_key, psfs.clone()));
+            psfs
+        }
+    };
     let beam = fit_restoring_beam(&psfs[0], geometry.cell_rad, &BeamFitParams::default())
         .map_err(deconv)?;
     let scales = ScaleSet::gaussian(&strategy.scales_px);

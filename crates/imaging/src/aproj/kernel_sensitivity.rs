@@ -1,6 +1,6 @@
 use super::kernel_operator::KernelAProjection;
 use super::kernel_operator::Side;
-use super::screens::{sampled_a_screen, screen_step};
+use super::screens::{sampled_a_screen_into, screen_step};
 use crate::error::ImagingError;
 use crate::operator::ImagingOperator;
 use beamfloor_core::{taylor_weight, Pol, VoltageBeam};
@@ -97,6 +97,10 @@ impl<B: VoltageBeam + ?Sized> KernelAProjection<'_, B> {
         let geometry = self.geometry();
         let mut images = vec![Array2::<f64>::zeros((geometry.ny, geometry.nx)); n_chan];
         let mut channel_weights = vec![0.0; n_chan];
+        // Screen buffers reused for every slot (the gridding one only for wideband).
+        let mut fwd = Array2::<f64>::zeros((geometry.ny, geometry.nx));
+        let mut grd_buffer =
+            Array2::<f64>::zeros(if self.is_wideband() { fwd.dim() } else { (0, 0) });
         for slot in 0..n_slots {
             let slot_sums = &sums[slot * n_chan..(slot + 1) * n_chan];
             if slot_sums.iter().all(|&s| s == 0.0) {
@@ -108,25 +112,28 @@ impl<B: VoltageBeam + ?Sized> KernelAProjection<'_, B> {
             let hand = slot % 2;
             let pad = self.plan.pad_nx.min(self.plan.pad_ny);
             let step = |side| screen_step(pad, layout.tables[layout.index(side, bin, g, hand)].2);
-            let fwd = sampled_a_screen(
+            sampled_a_screen_into(
                 self.beam,
                 geometry,
                 bin,
                 layout.forward_freqs[g],
                 pol,
                 step(Side::Forward),
+                &mut fwd,
             );
             let grd = if self.is_wideband() {
-                sampled_a_screen(
+                sampled_a_screen_into(
                     self.beam,
                     geometry,
                     bin,
                     layout.gridding_freqs[g],
                     pol,
                     step(Side::Gridding),
-                )
+                    &mut grd_buffer,
+                );
+                &grd_buffer
             } else {
-                fwd.clone()
+                &fwd
             };
             for (c, &sum_w) in slot_sums.iter().enumerate() {
                 if sum_w == 0.0 {
@@ -134,7 +141,7 @@ impl<B: VoltageBeam + ?Sized> KernelAProjection<'_, B> {
                 }
                 channel_weights[c] += sum_w;
                 const CHUNK: usize = 1 << 14;
-                let (a, b) = (contiguous(&fwd), contiguous(&grd));
+                let (a, b) = (contiguous(&fwd), contiguous(grd));
                 let out = images[c].as_slice_mut().expect("fresh image is contiguous");
                 out.par_chunks_mut(CHUNK)
                     .zip(a.par_chunks(CHUNK))

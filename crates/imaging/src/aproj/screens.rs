@@ -62,18 +62,24 @@ pub(crate) fn screen_step(pad_n: usize, band_cells: usize) -> usize {
 /// rate: |E|² of an aperture of diameter D at wavelength λ has no spatial frequency above D/λ
 /// (the autocorrelation of the aperture), so the A-kernel's support in uv cells bounds it, and
 /// [`screen_step`] picks the spacing from that support. `step = 1` is [`a_screen`] itself.
-pub(crate) fn sampled_a_screen<B: VoltageBeam + ?Sized>(
+///
+/// Written into `out` (`[ny][nx]`, every value overwritten), so that the caller can reuse one
+/// buffer for many screens: a fresh one each time cost a page fault per 4 KiB.
+pub(crate) fn sampled_a_screen_into<B: VoltageBeam + ?Sized>(
     beam: &B,
     geometry: ImageGeometry,
     bin: usize,
     freq_hz: f64,
     pol: Pol,
     step: usize,
-) -> Array2<f64> {
-    if step <= 1 {
-        return a_screen(beam, geometry, bin, freq_hz, pol);
-    }
+    out: &mut Array2<f64>,
+) {
     let (nx, ny) = (geometry.nx, geometry.ny);
+    assert_eq!(out.dim(), (ny, nx), "screen buffer shape");
+    if step <= 1 {
+        out.assign(&a_screen(beam, geometry, bin, freq_hz, pol));
+        return;
+    }
     let half = SCREEN_TAPS / 2;
     // Sample k sits at pixel (k − half) · step, for k = 0 … n − 1 covering [−half·step,
     // (n_pix − 1) + half·step].
@@ -107,9 +113,11 @@ pub(crate) fn sampled_a_screen<B: VoltageBeam + ?Sized>(
         }
     });
     // Along y.
-    let mut out = Array2::<f64>::zeros((ny, nx));
-    out.as_slice_mut().expect("fresh array is contiguous").par_chunks_mut(nx).enumerate().for_each(
-        |(iy, dst)| {
+    out.as_slice_mut()
+        .expect("screen buffers are contiguous")
+        .par_chunks_mut(nx)
+        .enumerate()
+        .for_each(|(iy, dst)| {
             let (k0, w) = &wy[iy];
             let row = |j: usize| &rows[(k0 + j) * nx..(k0 + j + 1) * nx];
             // The first tap writes without reading: reading a fresh zeroed page first maps the
@@ -123,9 +131,7 @@ pub(crate) fn sampled_a_screen<B: VoltageBeam + ?Sized>(
                     *d += wj * s;
                 }
             }
-        },
-    );
-    out
+        });
 }
 
 /// Lagrange weights of the [`SCREEN_TAPS`] nodes −3 … 4 (relative to the sample at or left of
