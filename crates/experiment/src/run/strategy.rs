@@ -64,11 +64,15 @@ pub type BeamTaylor = Option<Vec<Array2<f64>>>;
 /// strategy. Use one cache per run (per set of visibilities and weights).
 #[derive(Debug, Default)]
 pub struct PsfCache {
-    entries: Vec<((WTerm, usize), Vec<Array2<f64>>)>,
+    entries: Vec<(PsfKey, Vec<Array2<f64>>)>,
 }
 
+/// What a run's PSFs depend on beyond the run itself: the gridder's w treatment and the number
+/// of Taylor terms.
+type PsfKey = (WTerm, usize);
+
 impl PsfCache {
-    fn get(&self, key: (WTerm, usize)) -> Option<&Vec<Array2<f64>>> {
+    fn get(&self, key: PsfKey) -> Option<&Vec<Array2<f64>>> {
         self.entries.iter().find(|(k, _)| *k == key).map(|(_, psfs)| psfs)
     }
 }
