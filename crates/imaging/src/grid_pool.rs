@@ -40,7 +40,7 @@ impl GridPool {
                 b
             })
             .collect();
-        out.resize_with(count, || vec![Complex64::new(0.0, 0.0); len]);
+        out.resize_with(count, || fresh_grid(len));
         out
     }
 
@@ -59,7 +59,7 @@ impl GridPool {
                 }
             }
         }
-        out.resize_with(count, || vec![Complex64::new(0.0, 0.0); len]);
+        out.resize_with(count, || fresh_grid(len));
         out
     }
 
@@ -68,6 +68,43 @@ impl GridPool {
         let mut free = self.free.lock().unwrap_or_else(|e| e.into_inner());
         free.extend(buffers.into_iter().map(|b| (b, zero)));
     }
+}
+
+/// A new all-zero buffer of `len` values, on 2 MiB pages where the system allows it.
+///
+/// A grid is hundreds of MB at realistic sizes; on 4 KiB pages its first touch costs one page
+/// fault per 4 KiB (half a million for the A-projection rings), several times the cost of
+/// clearing the memory itself. Huge pages cut that to one fault per 2 MiB. The values are the
+/// same either way: this only advises the kernel about the buffer's pages.
+pub(crate) fn fresh_grid(len: usize) -> Vec<Complex64> {
+    let mut grid: Vec<Complex64> = Vec::with_capacity(len);
+    advise_huge_pages(grid.as_mut_ptr().cast(), len * std::mem::size_of::<Complex64>());
+    grid.resize(len, Complex64::new(0.0, 0.0));
+    grid
+}
+
+/// Asks the kernel to back the whole 2 MiB pages inside `[start, start + bytes)` with
+/// transparent huge pages (Linux `madvise(MADV_HUGEPAGE)`; a no-op elsewhere, for buffers under
+/// 4 MiB, or when the system has them switched off).
+fn advise_huge_pages(start: *mut u8, bytes: usize) {
+    const HUGE_PAGE: usize = 2 << 20;
+    if bytes < 2 * HUGE_PAGE {
+        return;
+    }
+    let (first, end) = ((start as usize).next_multiple_of(HUGE_PAGE), start as usize + bytes);
+    let last = end / HUGE_PAGE * HUGE_PAGE;
+    if last <= first {
+        return;
+    }
+    #[cfg(target_os = "linux")]
+    // SAFETY: [first, last) lies inside the allocation of `bytes` bytes at `start`, which the
+    // caller owns; MADV_HUGEPAGE only changes how the kernel backs those pages (their contents
+    // and validity are unchanged), and its result is advisory, so a failure is ignored.
+    unsafe {
+        libc::madvise(first as *mut libc::c_void, last - first, libc::MADV_HUGEPAGE);
+    }
+    #[cfg(not(target_os = "linux"))]
+    let _ = (first, last);
 }
 
 #[cfg(test)]

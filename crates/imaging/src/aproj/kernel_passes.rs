@@ -478,7 +478,8 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
         let (px, py) = (self.plan.pad_nx, self.plan.pad_ny);
         let nx = self.plan.geometry.nx;
         let plane_rows = self.plane_rows(&sites, &spans);
-        let mut columns = vec![ZERO; nx * py];
+        // Written before it is read, like the ring below.
+        let mut columns = self.pool.take_any(1, nx * py).pop().expect("one buffer");
         let hands: Vec<usize> = vis.correlations.iter().map(|c| hand(c.receptor())).collect();
         let simd = RowSimd::detect();
         let window = self.window();
@@ -590,6 +591,7 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
             }
             self.pool.give_back(ring, false);
         }
+        self.pool.give_back(vec![columns], false);
         Ok(Array3::from_shape_vec((nr, nc, np), out).expect("sized above"))
     }
 }
