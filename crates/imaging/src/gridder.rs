@@ -10,6 +10,7 @@
 //! tile's window of the plane into the same kind of buffer, computes each sample in one task and
 //! adds its planes in plane order, which is equally independent of the thread count.
 use crate::error::ImagingError;
+use crate::grid_pool::fresh_grid;
 use crate::operator::{check_degrid_args, check_grid_args, GridOutput, ImagingOperator};
 use crate::params::w_range_of;
 use crate::plan::GridPlan;
@@ -253,7 +254,8 @@ impl ImagingOperator for GridPlan {
         let nx = self.geometry.nx;
         let (px, py) = (self.pad_nx, self.pad_ny);
         let (n_rows, nc, np) = (vis.n_rows(), vis.n_channels(), vis.n_correlations());
-        let mut out = Array3::<Complex64>::zeros((n_rows, nc, np));
+        let mut out = Array3::from_shape_vec((n_rows, nc, np), fresh_grid(n_rows * nc * np))
+            .expect("sized to the shape");
         if !images.is_empty() {
             let samples = Samples::new(self, vis);
             let layout = self.layout(&samples, n_rows, |_| true);
@@ -270,7 +272,7 @@ impl ImagingOperator for GridPlan {
             let mut grids = self.pool.take_any(images.len(), px * py);
             let mut columns = self.pool.take_any(1, nx * py).pop().expect("one buffer");
             let mut rows = vec![false; py];
-            let mut acc = vec![ZERO; layout.order.len()];
+            let mut acc = fresh_grid(layout.order.len());
             let correction =
                 self.inverse_correction.as_slice().expect("plan arrays are contiguous");
             let mut screens = Screens::new(self, correction, -1.0);
