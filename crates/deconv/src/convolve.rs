@@ -66,7 +66,7 @@ fn fft2(
 }
 
 /// Smallest n' ≥ n whose only prime factors are 2, 3 and 5 (fast FFT sizes).
-fn smooth_size(n: usize) -> usize {
+pub(crate) fn smooth_size(n: usize) -> usize {
     let mut m = n.max(1);
     loop {
         let mut r = m;
@@ -126,5 +126,7 @@ mod tests {
         assert_eq!(smooth_size(7), 8);
         assert_eq!(smooth_size(97), 100);
         assert_eq!(smooth_size(128), 128);
+        assert_eq!(smooth_size(1439), 1440);
+        assert_eq!(smooth_size(1), 1);
     }
 }

@@ -15,6 +15,7 @@
 //! every offset y − y' between two image pixels then has its own residue modulo P, so a PSF
 //! stored at its offsets (zero where the offset is outside the PSF grid) gives the linear sum
 //! exactly, whatever the PSF's size.
+use crate::convolve::smooth_size;
 use crate::plan::MinorCyclePlan;
 use crate::MAX_TERMS;
 use ndarray::Array2;
@@ -53,8 +54,8 @@ impl std::fmt::Debug for PsfSpectra {
 impl PsfSpectra {
     /// Transforms of the plan's unsmoothed spectral PSFs for `ny × nx` images.
     pub fn new(plan: &MinorCyclePlan, ny: usize, nx: usize) -> Self {
-        let py = fast_size(2 * ny.max(1) - 1);
-        let px = fast_size(2 * nx.max(1) - 1);
+        let py = smooth_size(2 * ny.max(1) - 1);
+        let px = smooth_size(2 * nx.max(1) - 1);
         let mut planner = FftPlanner::<f64>::new();
         let mut me = Self {
             ny,
@@ -248,23 +249,6 @@ pub(crate) struct RefreshScratch {
     acc: Vec<C64>,
 }
 
-/// Smallest n' ≥ n whose only prime factors are 2, 3 and 5.
-fn fast_size(n: usize) -> usize {
-    let mut m = n.max(1);
-    loop {
-        let mut r = m;
-        for p in [2, 3, 5] {
-            while r % p == 0 {
-                r /= p;
-            }
-        }
-        if r == 1 {
-            return m;
-        }
-        m += 1;
-    }
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -343,12 +327,5 @@ mod tests {
                 }
             }
         }
-    }
-
-    #[test]
-    fn fast_sizes() {
-        assert_eq!(fast_size(1439), 1440);
-        assert_eq!(fast_size(7), 8);
-        assert_eq!(fast_size(1), 1);
     }
 }

@@ -6,28 +6,14 @@
 
 use std::path::{Path, PathBuf};
 
+mod common;
+
 use beamfloor_experiment::load_config;
 use beamfloor_experiment::run::{run_experiment, RunObserver};
+use common::fits::fits_data_unit;
 
 struct Quiet;
 impl RunObserver for Quiet {}
-
-/// The data unit of a FITS file: everything after the primary header, which is 2880-byte
-/// blocks of 80-character cards ending with the `END` card (FITS Standard 4.0, §3.3 and §4.1).
-fn fits_data_unit(bytes: &[u8]) -> &[u8] {
-    let mut block = 0;
-    while (block + 1) * 2880 <= bytes.len() {
-        let header = &bytes[block * 2880..(block + 1) * 2880];
-        block += 1;
-        if header
-            .chunks(80)
-            .any(|card| card.starts_with(b"END") && card[3..].iter().all(|&c| c == b' '))
-        {
-            return &bytes[block * 2880..];
-        }
-    }
-    panic!("no END card in the FITS header")
-}
 
 fn run_with_threads(threads: usize, out: &Path) {
     let path = PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("tests/run_small.toml");

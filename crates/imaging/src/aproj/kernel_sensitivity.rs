@@ -97,6 +97,7 @@ impl<B: VoltageBeam + ?Sized> KernelAProjection<'_, B> {
         let geometry = self.geometry();
         let mut images = vec![Array2::<f64>::zeros((geometry.ny, geometry.nx)); n_chan];
         let mut channel_weights = vec![0.0; n_chan];
+        let pad = self.plan.pad_nx.min(self.plan.pad_ny);
         // Screen buffers reused for every slot (the gridding one only for wideband).
         let mut fwd = Array2::<f64>::zeros((geometry.ny, geometry.nx));
         let mut grd_buffer =
@@ -110,7 +111,6 @@ impl<B: VoltageBeam + ?Sized> KernelAProjection<'_, B> {
                 (slot / (2 * layout.n_groups), (slot / 2) % layout.n_groups, Pol::BOTH[slot % 2]);
             // Each screen is band-limited by its kernel's support: sample it accordingly.
             let hand = slot % 2;
-            let pad = self.plan.pad_nx.min(self.plan.pad_ny);
             let step = |side| screen_step(pad, layout.tables[layout.index(side, bin, g, hand)].2);
             sampled_a_screen_into(
                 self.beam,
