@@ -492,8 +492,16 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
         let nx = self.plan.geometry.nx;
         // Per channel c and plane q, the grid rows its samples read: an image only needs the
         // planes and rows of the channels it has a share in (per-channel prediction: one).
-        let channel_rows: Vec<Vec<Vec<bool>>> =
-            (0..nc).map(|c| self.plane_rows(&sites, &spans, |i| i % nc == c)).collect();
+        // Indexed [plane][channel].
+        let mut channel_rows: Vec<Vec<Vec<bool>>> =
+            vec![Vec::with_capacity(nc); self.plan.n_w_planes()];
+        for c in 0..nc {
+            for (q, rows) in
+                self.plane_rows(&sites, &spans, |i| i % nc == c).into_iter().enumerate()
+            {
+                channel_rows[q].push(rows);
+            }
+        }
         let shares: Vec<Vec<usize>> =
             channel_factors.iter().map(|f| (0..nc).filter(|&c| f[c] != 0.0).collect()).collect();
         let mut image_rows = vec![false; py];
@@ -533,7 +541,7 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
                     continue;
                 }
                 let last = bucket.iter().map(|&i| p + spans[i].1).max().unwrap_or(p).min(n_planes);
-                for q in p..last {
+                for (q, per_channel) in channel_rows.iter().enumerate().take(last).skip(p) {
                     let slot = q % window;
                     if holds[slot] == q {
                         continue;
@@ -544,7 +552,7 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
                     for (t, image_t) in imgs_t.iter().enumerate() {
                         image_rows.iter_mut().for_each(|r| *r = false);
                         for &c in &shares[t] {
-                            for (r, &x) in image_rows.iter_mut().zip(&channel_rows[c][q]) {
+                            for (r, &x) in image_rows.iter_mut().zip(&per_channel[c]) {
                                 *r |= x;
                             }
                         }
