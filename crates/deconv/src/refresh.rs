@@ -152,46 +152,53 @@ impl PsfSpectra {
             let second = (first + 1 < n).then_some(first + 1);
             let products = &self.products[o * n_pairs..(o + 1) * n_pairs];
             scratch.acc.resize(px * py, zero);
-            scratch.acc.par_chunks_mut(py).enumerate().for_each(|(kx, col)| {
-                // Column kx of every product and packed input, and the mirrored column
-                // (−kx mod P) of the inputs: Z(−k) for ky sits at (P − ky) mod P there.
-                let (base, base_m) = (kx * py, ((px - kx) % px) * py);
-                for (p, (product, z)) in products.iter().zip(packed).enumerate() {
-                    let (u, z_k) = (&product.u[base..base + py], &z[base..base + py]);
-                    let z_m = &z[base_m..base_m + py];
-                    // acc (+)= U Z(k) (+ V conj Z(−k)); ky = 0 is its own mirror.
-                    let first_term = p == 0;
-                    let add = |acc: &mut C64, v: C64| {
-                        if first_term {
-                            *acc = v;
-                        } else {
-                            *acc += v;
-                        }
-                    };
-                    match &product.v {
-                        Some(v) => {
-                            let v = &v[base..base + py];
-                            add(&mut col[0], u[0] * z_k[0] + v[0] * z_m[0].conj());
-                            let mirrored = z_m[1..].iter().rev();
-                            for ((((acc, &u), &v), &zk), &zm) in col[1..]
-                                .iter_mut()
-                                .zip(&u[1..])
-                                .zip(&v[1..])
-                                .zip(&z_k[1..])
-                                .zip(mirrored)
-                            {
-                                add(acc, u * zk + v * zm.conj());
+            let col_fft = &self.col_inv;
+            let fft_scratch = || vec![zero; col_fft.get_inplace_scratch_len()];
+            scratch.acc.par_chunks_mut(py).enumerate().for_each_init(
+                fft_scratch,
+                |fft_scratch, (kx, col)| {
+                    // Column kx of every product and packed input, and the mirrored column
+                    // (−kx mod P) of the inputs: Z(−k) for ky sits at (P − ky) mod P there. The
+                    // column's inverse transform follows while it is in cache.
+                    let (base, base_m) = (kx * py, ((px - kx) % px) * py);
+                    for (p, (product, z)) in products.iter().zip(packed).enumerate() {
+                        let (u, z_k) = (&product.u[base..base + py], &z[base..base + py]);
+                        let z_m = &z[base_m..base_m + py];
+                        // acc (+)= U Z(k) (+ V conj Z(−k)); ky = 0 is its own mirror.
+                        let first_term = p == 0;
+                        let add = |acc: &mut C64, v: C64| {
+                            if first_term {
+                                *acc = v;
+                            } else {
+                                *acc += v;
                             }
-                        }
-                        None => {
-                            for ((acc, &u), &zk) in col.iter_mut().zip(u).zip(z_k) {
-                                add(acc, u * zk);
+                        };
+                        match &product.v {
+                            Some(v) => {
+                                let v = &v[base..base + py];
+                                add(&mut col[0], u[0] * z_k[0] + v[0] * z_m[0].conj());
+                                let mirrored = z_m[1..].iter().rev();
+                                for ((((acc, &u), &v), &zk), &zm) in col[1..]
+                                    .iter_mut()
+                                    .zip(&u[1..])
+                                    .zip(&v[1..])
+                                    .zip(&z_k[1..])
+                                    .zip(mirrored)
+                                {
+                                    add(acc, u * zk + v * zm.conj());
+                                }
+                            }
+                            None => {
+                                for ((acc, &u), &zk) in col.iter_mut().zip(u).zip(z_k) {
+                                    add(acc, u * zk);
+                                }
                             }
                         }
                     }
-                }
-            });
-            self.inverse_into(&mut scratch.acc, &mut scratch.rows);
+                    col_fft.process_with_scratch(col, fft_scratch);
+                },
+            );
+            self.inverse_rows_into(&scratch.acc, &mut scratch.rows);
             for y in 0..ny {
                 for x in 0..nx {
                     let v = scratch.rows[y * nx + x] * norm;
@@ -226,29 +233,25 @@ impl PsfSpectra {
         );
         cols.resize(px * py, C64::new(0.0, 0.0));
         let buf = &*buf;
-        cols.par_chunks_mut(py).enumerate().for_each(|(kx, col)| {
-            col.fill(C64::new(0.0, 0.0));
-            for (r, &y) in rows.iter().enumerate() {
-                col[y] = buf[r * px + kx];
-            }
-        });
         let col_fft = &self.col_fwd;
-        cols.par_chunks_mut(py).for_each_init(
+        // Each column is gathered and transformed while it is in cache.
+        cols.par_chunks_mut(py).enumerate().for_each_init(
             || vec![C64::new(0.0, 0.0); col_fft.get_inplace_scratch_len()],
-            |scratch, col| col_fft.process_with_scratch(col, scratch),
+            |scratch, (kx, col)| {
+                col.fill(C64::new(0.0, 0.0));
+                for (r, &y) in rows.iter().enumerate() {
+                    col[y] = buf[r * px + kx];
+                }
+                col_fft.process_with_scratch(col, scratch);
+            },
         );
     }
 
-    /// Unnormalised inverse of [`Self::forward`]: the first `ny` rows, first `nx` columns,
-    /// row-major, into `out` (resized); `cols` is overwritten.
-    fn inverse_into(&self, cols: &mut [C64], out: &mut Vec<C64>) {
+    /// The row half of the unnormalised inverse of [`Self::forward`], after the column
+    /// transforms (done in `cols`, column-major): the first `ny` rows, first `nx` columns,
+    /// row-major, into `out` (resized).
+    fn inverse_rows_into(&self, cols: &[C64], out: &mut Vec<C64>) {
         let (ny, nx, py, px) = (self.ny, self.nx, self.py, self.px);
-        let col_fft = &self.col_inv;
-        cols.par_chunks_mut(py).for_each_init(
-            || vec![C64::new(0.0, 0.0); col_fft.get_inplace_scratch_len()],
-            |scratch, col| col_fft.process_with_scratch(col, scratch),
-        );
-        let cols = &*cols;
         let row_fft = &self.row_inv;
         out.resize(ny * nx, C64::new(0.0, 0.0));
         out.par_chunks_mut(nx).enumerate().for_each_init(
