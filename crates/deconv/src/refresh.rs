@@ -292,6 +292,7 @@ impl PairProduct {
     fn fold(spectra: &[Vec<C64>], n: usize) -> Vec<Self> {
         let n_pairs = n.div_ceil(2);
         let i = C64::new(0.0, 1.0);
+        let len = spectra[0].len();
         let mut out = Vec::with_capacity(n_pairs * n_pairs);
         for first in (0..n).step_by(2) {
             let second = (first + 1 < n).then_some(first + 1);
@@ -301,7 +302,6 @@ impl PairProduct {
                 second.map_or(s, |b| s + i * spectra[b + j][k])
             };
             for a in (0..n).step_by(2) {
-                let len = spectra[0].len();
                 let product = if a + 1 < n {
                     let u = (0..len).into_par_iter().map(|k| (t(a, k) - i * t(a + 1, k)) * 0.5);
                     let v = (0..len).into_par_iter().map(|k| (t(a, k) + i * t(a + 1, k)) * 0.5);

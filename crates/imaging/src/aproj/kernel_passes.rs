@@ -523,6 +523,9 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
             let imgs = &images[first..(first + batch).min(images.len())];
             let factors = &channel_factors[first..first + imgs.len()];
             let shares = &shares[first..first + imgs.len()];
+            // Channels with a share in some image of this pass.
+            let mut in_pass = vec![false; nc];
+            shares.iter().flatten().for_each(|&c| in_pass[c] = true);
             let n_img = imgs.len();
             let imgs_t: Vec<Vec<f64>> = imgs
                 .iter()
@@ -585,7 +588,7 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
                                 // A sample whose channel has no share in any image of this
                                 // batch (per-channel prediction, done in several batches) reads
                                 // nothing here: skip its kernel too.
-                                if factors.iter().all(|f| f[c] == 0.0) {
+                                if !in_pass[c] {
                                     return [ZERO; 2];
                                 }
                                 let n = s.support;

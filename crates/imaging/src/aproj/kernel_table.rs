@@ -285,10 +285,12 @@ pub(crate) fn build_table<B: VoltageBeam + ?Sized>(
     let mut rows = vec![Complex64::new(0.0, 0.0); m * m];
     let mut column = vec![Complex64::new(0.0, 0.0); m];
     let mut scratch = vec![Complex64::new(0.0, 0.0); sp.fft.get_inplace_scratch_len()];
-    for (rx, lx) in lists.iter().enumerate() {
-        let ramp_x = sp.ramp(rx as f64 / o as f64);
+    // The same residues r / O shift along x and along y.
+    let ramps: Vec<Vec<Complex64>> =
+        (0..lists.len()).map(|r| sp.ramp(r as f64 / o as f64)).collect();
+    for (lx, ramp_x) in lists.iter().zip(&ramps) {
         for (row, values) in rows.chunks_mut(m).zip(sp.values.chunks(m)) {
-            for ((r, v), p) in row.iter_mut().zip(values).zip(&ramp_x) {
+            for ((r, v), p) in row.iter_mut().zip(values).zip(ramp_x) {
                 *r = v * p;
             }
         }
@@ -296,8 +298,7 @@ pub(crate) fn build_table<B: VoltageBeam + ?Sized>(
         let mut columns: Vec<usize> = lx.iter().map(|&(_, _, kx)| kx).collect();
         columns.sort_unstable();
         columns.dedup();
-        for (ry, ly) in lists.iter().enumerate() {
-            let ramp_y = sp.ramp(ry as f64 / o as f64);
+        for (ly, ramp_y) in lists.iter().zip(&ramps) {
             for &kx in &columns {
                 for (ny, c) in column.iter_mut().enumerate() {
                     *c = rows[ny * m + kx] * ramp_y[ny];
