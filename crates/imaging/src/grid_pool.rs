@@ -76,11 +76,26 @@ impl GridPool {
 /// fault per 4 KiB (half a million for the A-projection rings), several times the cost of
 /// clearing the memory itself. Huge pages cut that to one fault per 2 MiB. The values are the
 /// same either way: this only advises the kernel about the buffer's pages.
+///
+/// The buffer comes zeroed from the allocator: a large one is fresh memory from the system,
+/// which is zero already, so it is not written here at all, and pages the caller never touches
+/// (the grid rows no sample reaches) are never mapped.
 pub(crate) fn fresh_grid(len: usize) -> Vec<Complex64> {
-    let mut grid: Vec<Complex64> = Vec::with_capacity(len);
-    advise_huge_pages(grid.as_mut_ptr().cast(), len * std::mem::size_of::<Complex64>());
-    grid.resize(len, Complex64::new(0.0, 0.0));
-    grid
+    let bytes = len * std::mem::size_of::<Complex64>();
+    if bytes == 0 {
+        return Vec::new();
+    }
+    let layout = std::alloc::Layout::array::<Complex64>(len).expect("buffer size fits in memory");
+    // SAFETY: the layout has a non-zero size (checked above).
+    let ptr = unsafe { std::alloc::alloc_zeroed(layout) }.cast::<Complex64>();
+    if ptr.is_null() {
+        std::alloc::handle_alloc_error(layout);
+    }
+    advise_huge_pages(ptr.cast(), bytes);
+    // SAFETY: `ptr` was allocated by the global allocator with the layout of `len` values of
+    // Complex64 (so capacity `len`), and all-zero bytes are a valid Complex64 (0.0 + 0.0i), so
+    // all `len` values are initialised.
+    unsafe { Vec::from_raw_parts(ptr, len, len) }
 }
 
 /// Asks the kernel to back the whole 2 MiB pages inside `[start, start + bytes)` with

@@ -52,13 +52,49 @@ fn floor_i64(x: f64) -> i64 {
     }
 }
 
+/// Splits a sample index i = row · n + channel into (row, channel) without a divide
+/// instruction (tens of cycles, once or twice per sample in the innermost passes): the quotient
+/// estimated with the rounded reciprocal of n is off by at most one for i < 2^52, and is then
+/// corrected exactly.
+#[derive(Clone, Copy, Debug)]
+pub(crate) struct RowSplit {
+    n: usize,
+    inverse: f64,
+}
+
+impl RowSplit {
+    pub(crate) fn new(n: usize) -> Self {
+        assert!(n > 0, "a visibility set has at least one channel");
+        Self { n, inverse: 1.0 / n as f64 }
+    }
+
+    /// (i / n, i % n).
+    #[inline(always)]
+    pub(crate) fn split(&self, i: usize) -> (usize, usize) {
+        debug_assert!(i < 1 << 52);
+        let mut r = (i as f64 * self.inverse) as usize;
+        if r * self.n > i {
+            r -= 1;
+        } else if (r + 1) * self.n <= i {
+            r += 1;
+        }
+        (r, i - r * self.n)
+    }
+}
+
 /// Where the samples of a visibility set fall on the padded grid and the w planes: sample
 /// i = row · n_chan + chan sits at fractional cell (s_x, s_y) = (u x_scale, v y_scale) and plane
 /// coordinate (w ν/c − w0)/Δw, with uvw in metres.
+///
+/// The tiled passes name a sample by its key, row · 2^b + chan with 2^b ≥ n_chan, so that its
+/// row and channel are a shift and a mask away (keys increase with i).
 struct Samples<'a> {
     /// uvw rows in metres, row-major (row · 3 + axis).
     uvw: Cow<'a, [f64]>,
     n_chan: usize,
+    rows: RowSplit,
+    /// b of the keys.
+    shift: u32,
     /// Per channel: −ν/c · cell · pad_nx, ν/c · cell · pad_ny and ν/c.
     x_scale: Vec<f64>,
     y_scale: Vec<f64>,
@@ -77,21 +113,62 @@ impl<'a> Samples<'a> {
         Self {
             uvw,
             n_chan: vis.n_channels(),
+            rows: RowSplit::new(vis.n_channels()),
+            shift: vis.n_channels().next_power_of_two().trailing_zeros(),
             x_scale: per_lambda.iter().map(|s| -s * cell * plan.pad_nx as f64).collect(),
             y_scale: per_lambda.iter().map(|s| s * cell * plan.pad_ny as f64).collect(),
             per_lambda,
         }
     }
 
-    /// Channel, fractional cells (s_x, s_y) and plane coordinate (0 when w is ignored) of
-    /// sample `i`.
+    /// Key of sample i.
     #[inline(always)]
-    fn at(&self, plan: &GridPlan, i: usize) -> (usize, f64, f64, f64) {
-        let r = i / self.n_chan;
-        let c = i - r * self.n_chan;
+    fn key(&self, i: usize) -> usize {
+        let (r, c) = self.rows.split(i);
+        (r << self.shift) | c
+    }
+
+    /// Row and channel of the sample with key `key`.
+    #[inline(always)]
+    fn row_chan(&self, key: usize) -> (usize, usize) {
+        (key >> self.shift, key & ((1 << self.shift) - 1))
+    }
+
+    /// Index i of the sample with key `key`.
+    #[inline(always)]
+    fn index(&self, key: usize) -> usize {
+        let (r, c) = self.row_chan(key);
+        r * self.n_chan + c
+    }
+
+    /// Channel, fractional cells (s_x, s_y), plane coordinate (0 when w is ignored) and
+    /// mirroring of the sample with key `key`: when the plan folds (see [`GridPlan`]), a sample of the other
+    /// half (w < 0 with w planes, else v < 0) is placed at (−u, −v, −w) and `true` says its
+    /// value is to be conjugated. Whether a sample is mirrored depends only on the sign of its
+    /// row's v or w, so all channels of a row agree.
+    #[inline(always)]
+    fn at(&self, plan: &GridPlan, key: usize) -> (usize, f64, f64, f64, bool) {
+        let (r, c) = self.row_chan(key);
         let uvw = &self.uvw[3 * r..3 * r + 3];
-        let w = plan.planes.map_or(0.0, |p| p.coordinate(uvw[2] * self.per_lambda[c]));
-        (c, uvw[0] * self.x_scale[c], uvw[1] * self.y_scale[c], w)
+        let (sx, sy) = (uvw[0] * self.x_scale[c], uvw[1] * self.y_scale[c]);
+        match plan.planes {
+            None => {
+                let flip = plan.fold && sy < 0.0;
+                if flip {
+                    (c, -sx, -sy, 0.0, true)
+                } else {
+                    (c, sx, sy, 0.0, false)
+                }
+            }
+            Some(p) => {
+                let w = uvw[2] * self.per_lambda[c];
+                if plan.fold && w < 0.0 {
+                    (c, -sx, -sy, p.coordinate(-w), true)
+                } else {
+                    (c, sx, sy, p.coordinate(w), false)
+                }
+            }
+        }
     }
 }
 
@@ -129,16 +206,20 @@ impl GridPlan {
                 if !keep(i) {
                     continue;
                 }
-                let (_, sx, sy, w) = samples.at(self, i);
+                let (_, sx, sy, w, _) = samples.at(self, (r << samples.shift) | c);
                 if self.plane_span(w).1 > 0 {
                     // The same first cell as the polynomial taps compute: ⌈s − W/2⌉.
                     *t = map.tile_of(ceil_i64(sx - half), ceil_i64(sy - half));
                 }
             }
         });
-        Layout::new(&tiles, map, self.n_w_planes(), |i| {
-            self.plane_span(samples.at(self, i).3).0 as u32
-        })
+        Layout::new(
+            &tiles,
+            map,
+            self.n_w_planes(),
+            |i| samples.key(i),
+            |key| self.plane_span(samples.at(self, key).3).0 as u32,
+        )
     }
 
     fn check_w(&self, vis: &VisSet) -> Result<(), ImagingError> {
@@ -211,6 +292,9 @@ impl ImagingOperator for GridPlan {
         let values = GridValues { summed, n_src, outputs };
         let w = self.kernel.support();
         let mut grids = self.pool.take(n_out, px * py);
+        for g in grids.iter_mut() {
+            g.fill(ZERO);
+        }
         let mut rows = vec![false; py];
         let mut images_t = vec![vec![0.0; nx * ny]; n_out];
         let correction = self.inverse_correction.as_slice().expect("plan arrays are contiguous");
@@ -293,7 +377,8 @@ impl ImagingOperator for GridPlan {
             self.pool.give_back(grids, false);
             // The same value for every correlation of the sample.
             let all = out.as_slice_mut().expect("fresh array is contiguous");
-            for (&i, v) in layout.order.iter().zip(acc) {
+            for (&key, v) in layout.order.iter().zip(acc) {
+                let i = samples.index(key);
                 all[i * np..(i + 1) * np].iter_mut().for_each(|x| *x = v);
             }
         }

@@ -45,7 +45,8 @@ impl WPlanes {
 /// w-planes ([`WTerm::Stack`]): with x = n − 1 ∈ [x_min, 0] over the field, the planes are spaced
 /// Δw = 1 / (2 σ max|x|), so that the image-domain frequency along w, Δw · |x|, stays within the
 /// 1/(2σ) band on which the ES kernel reaches ε — the same condition as for u and v on the padded
-/// grid. Planes cover [w_min − W/2 Δw, w_max + W/2 Δw]: ⌈(w_max − w_min)/Δw⌉ + W + 1 planes.
+/// grid. Planes cover [w_min − W/2 Δw, w_max + W/2 Δw]: ⌈(w_max − w_min)/Δw⌉ + W + 1 planes,
+/// where [w_min, w_max] is the range of |w| when the plan folds (below).
 /// Pixels with l² + m² ≥ 1 (beyond the horizon) are set to zero.
 ///
 /// Cost and memory: every sample is spread onto W planes (W³ kernel products with w-stacking,
@@ -54,6 +55,15 @@ impl WPlanes {
 /// FFT). Gridding keeps one padded complex grid (16 · pad_nx · pad_ny bytes) per output image,
 /// shared by all threads (each owns bands of grid rows); degridding keeps one per input image
 /// plus nx · pad_ny complex values of scratch. Results do not depend on the thread count.
+///
+/// Folding: the images this operator makes and reads are real, and for a real image the sample
+/// at (−u, −v, −w) carries the conjugate of the one at (u, v, w) (gridding: Re(V e^{iφ}) =
+/// Re(V̄ e^{−iφ}); degridding: V(−u, −v, −w) = conj V(u, v, w) because the sum of real values
+/// times e^{+iφ} is the conjugate of the sum times e^{−iφ}). So every sample of one half is
+/// mirrored into the other before it is placed: with w planes the half w < 0, which about halves
+/// the planes (they cover only [0, max |w|]); without, the half v < 0, which halves the grid rows
+/// that hold data and so the rows transformed along x. Operators that weight samples with
+/// direction-dependent kernels, which need not have this symmetry, use an unfolded plan.
 #[derive(Clone, Debug)]
 pub struct GridPlan {
     pub(crate) geometry: ImageGeometry,
@@ -76,6 +86,8 @@ pub struct GridPlan {
     /// None when w is ignored (one plane at w = 0, no screen).
     pub(crate) planes: Option<WPlanes>,
     pub(crate) w_range: WRange,
+    /// Whether samples of one half are mirrored into the other (see above).
+    pub(crate) fold: bool,
     /// Padded grids kept between calls (shared by clones of the plan).
     pub(crate) pool: Arc<GridPool>,
 }
@@ -87,6 +99,25 @@ impl GridPlan {
         geometry: ImageGeometry,
         params: &GridderParams,
         w_range: WRange,
+    ) -> Result<Self, ImagingError> {
+        Self::with_folding(geometry, params, w_range, true)
+    }
+
+    /// [`GridPlan::new`] without folding: every sample keeps its own (u, v, w), and the w planes
+    /// cover all of `w_range` (for operators that place samples on the plan's planes themselves).
+    pub(crate) fn unfolded(
+        geometry: ImageGeometry,
+        params: &GridderParams,
+        w_range: WRange,
+    ) -> Result<Self, ImagingError> {
+        Self::with_folding(geometry, params, w_range, false)
+    }
+
+    fn with_folding(
+        geometry: ImageGeometry,
+        params: &GridderParams,
+        w_range: WRange,
+        fold: bool,
     ) -> Result<Self, ImagingError> {
         let bad = |why| ImagingError::Geometry {
             nx: geometry.nx,
@@ -126,10 +157,17 @@ impl GridPlan {
                 }
             }
         }
+        // The w values the planes must hold: with folding, |w| of the range.
+        let (w_lo, w_hi) = match (fold, w_range.min_lambda, w_range.max_lambda) {
+            (false, lo, hi) => (lo, hi),
+            (true, lo, hi) if lo >= 0.0 => (lo, hi),
+            (true, lo, hi) if hi <= 0.0 => (-hi, -lo),
+            (true, lo, hi) => (0.0, hi.max(-lo)),
+        };
         let planes = if use_w && max_x > 0.0 {
             let w = kernel.support() as f64;
             let dw = 1.0 / (2.0 * UPSAMPLING * max_x);
-            let span = ((w_range.max_lambda - w_range.min_lambda) / dw).ceil();
+            let span = ((w_hi - w_lo) / dw).ceil();
             if span.is_nan() || span >= 1e6 {
                 return Err(ImagingError::Parameter {
                     name: "w_range",
@@ -138,7 +176,7 @@ impl GridPlan {
                 });
             }
             Some(WPlanes {
-                w0: w_range.min_lambda - 0.5 * w * dw,
+                w0: w_lo - 0.5 * w * dw,
                 dw,
                 count: span as usize + kernel.support() + 1,
             })
@@ -211,6 +249,7 @@ impl GridPlan {
             n_minus_1,
             planes,
             w_range,
+            fold,
             pool: Arc::default(),
         })
     }
@@ -319,7 +358,16 @@ mod tests {
         let x = 1.0 - (1.0 - r2).sqrt();
         let dw = p.w_plane_spacing().unwrap();
         assert!((dw - 1.0 / (4.0 * x)).abs() < 1e-9 * dw);
-        assert_eq!(p.n_w_planes(), (400.0 / dw).ceil() as usize + p.kernel().support() + 1);
+        // Folded, the planes hold |w| ∈ [0, 300]; unfolded, all of [−100, 300].
+        assert_eq!(p.n_w_planes(), (300.0 / dw).ceil() as usize + p.kernel().support() + 1);
+        let unfolded =
+            GridPlan::unfolded(g, &GridderParams::default(), WRange::new(-100.0, 300.0).unwrap())
+                .unwrap();
+        assert_eq!(unfolded.n_w_planes(), (400.0 / dw).ceil() as usize + p.kernel().support() + 1);
+        let negative =
+            GridPlan::new(g, &GridderParams::default(), WRange::new(-300.0, -100.0).unwrap())
+                .unwrap();
+        assert_eq!(negative.n_w_planes(), (200.0 / dw).ceil() as usize + p.kernel().support() + 1);
         let ignore = GridderParams { w_term: WTerm::Ignore, ..GridderParams::default() };
         assert_eq!(GridPlan::new(g, &ignore, p.w_range()).unwrap().n_w_planes(), 1);
         assert!(GridPlan::new(ImageGeometry::new(63, 64, 1e-3), &ignore, p.w_range()).is_err());

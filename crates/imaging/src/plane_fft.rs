@@ -66,7 +66,7 @@ impl GridPlan {
         &self,
         grid: &mut [Complex64],
         rows: &[bool],
-        screen_t: &[Complex64],
+        screen_t: Screen<'_>,
         image_t: &mut [f64],
         overwrite: bool,
     ) {
@@ -75,53 +75,60 @@ impl GridPlan {
         debug_assert_eq!(grid.len(), px * py);
         debug_assert_eq!(rows.len(), py);
         let fft_x = &self.fft_x_inverse;
-        grid.par_chunks_mut(px).zip(rows.par_iter()).filter(|(_, &t)| t).for_each_init(
-            || vec![ZERO; fft_x.get_inplace_scratch_len()],
-            |scratch, (line, _)| fft_x.process_with_scratch(line, scratch),
-        );
+        // Small pieces: the rows with data may all sit in one half of the grid (a folded plan),
+        // which an even split would hand to one thread.
+        grid.par_chunks_mut(px)
+            .zip(rows.par_iter())
+            .with_max_len(8)
+            .filter(|(_, &t)| t)
+            .for_each_init(
+                || vec![ZERO; fft_x.get_inplace_scratch_len()],
+                |scratch, (line, _)| fft_x.process_with_scratch(line, scratch),
+            );
         let fft_y = &self.fft_y_inverse;
         let grid_ref = &*grid;
         let touched: Vec<usize> = (0..py).filter(|&y| rows[y]).collect();
-        image_t
-            .par_chunks_mut(COLUMNS * ny)
-            .zip(screen_t.par_chunks(COLUMNS * ny))
-            .enumerate()
-            .for_each_init(
-                || (vec![ZERO; COLUMNS * py], vec![ZERO; fft_y.get_inplace_scratch_len()]),
-                |(buf, scratch), (block, (out, screen))| {
-                    let ix0 = block * COLUMNS;
-                    let n_cols = out.len() / ny;
-                    let gx: Vec<usize> = (ix0..ix0 + n_cols).map(|ix| self.grid_x(ix)).collect();
-                    let buf = &mut buf[..n_cols * py];
-                    buf.iter_mut().for_each(|v| *v = ZERO);
-                    for &y in &touched {
-                        let line = &grid_ref[y * px..(y + 1) * px];
-                        for (c, &x) in gx.iter().enumerate() {
-                            buf[c * py + y] = line[x];
+        image_t.par_chunks_mut(COLUMNS * ny).enumerate().for_each_init(
+            || (vec![ZERO; COLUMNS * py], vec![ZERO; fft_y.get_inplace_scratch_len()]),
+            |(buf, scratch), (block, out)| {
+                let ix0 = block * COLUMNS;
+                let n_cols = out.len() / ny;
+                let gx: Vec<usize> = (ix0..ix0 + n_cols).map(|ix| self.grid_x(ix)).collect();
+                let buf = &mut buf[..n_cols * py];
+                buf.iter_mut().for_each(|v| *v = ZERO);
+                for &y in &touched {
+                    let line = &grid_ref[y * px..(y + 1) * px];
+                    for (c, &x) in gx.iter().enumerate() {
+                        buf[c * py + y] = line[x];
+                    }
+                }
+                fft_y.process_with_scratch(buf, scratch);
+                for c in 0..n_cols {
+                    let col = &buf[c * py..(c + 1) * py];
+                    let o = &mut out[c * ny..(c + 1) * ny];
+                    let pixels = (ix0 + c) * ny..(ix0 + c + 1) * ny;
+                    // iy < ny/2 sits at the top of the column (negative index), the rest at 0...
+                    let h = ny / 2;
+                    let g = col[py - h..].iter().chain(&col[..ny - h]);
+                    match screen_t {
+                        Screen::Real(s) => {
+                            let values = s[pixels].iter().zip(g).map(|(s, g)| g.re * s);
+                            store(o, values, overwrite);
+                        }
+                        Screen::Complex(s) => {
+                            let values = s[pixels].iter().zip(g);
+                            let values = values.map(|(s, g)| g.re * s.re - g.im * s.im);
+                            store(o, values, overwrite);
                         }
                     }
-                    fft_y.process_with_scratch(buf, scratch);
-                    for c in 0..n_cols {
-                        let col = &buf[c * py..(c + 1) * py];
-                        let (o, s) =
-                            (&mut out[c * ny..(c + 1) * ny], &screen[c * ny..(c + 1) * ny]);
-                        // iy < ny/2 sits at the top of the column (negative index), the rest at 0...
-                        let h = ny / 2;
-                        let top = &col[py - h..];
-                        let bottom = &col[..ny - h];
-                        let values = s.iter().zip(top.iter().chain(bottom));
-                        let values = values.map(|(s, g)| g.re * s.re - g.im * s.im);
-                        if overwrite {
-                            o.iter_mut().zip(values).for_each(|(v, x)| *v = x);
-                        } else {
-                            o.iter_mut().zip(values).for_each(|(v, x)| *v += x);
-                        }
-                    }
-                },
-            );
-        grid.par_chunks_mut(px).zip(rows.par_iter()).filter(|(_, &t)| t).for_each(|(line, _)| {
-            line.iter_mut().for_each(|v| *v = ZERO);
-        });
+                }
+            },
+        );
+        grid.par_chunks_mut(px).zip(rows.par_iter()).with_max_len(8).filter(|(_, &t)| t).for_each(
+            |(line, _)| {
+                line.iter_mut().for_each(|v| *v = ZERO);
+            },
+        );
     }
 
     /// Image → grid for one plane: the forward transform of `image_t · screen_t` (transposed
@@ -131,7 +138,7 @@ impl GridPlan {
     pub(crate) fn plane_from_image(
         &self,
         image_t: &[f64],
-        screen_t: &[Complex64],
+        screen_t: Screen<'_>,
         rows: &[bool],
         columns: &mut [Complex64],
         grid: &mut [Complex64],
@@ -143,14 +150,16 @@ impl GridPlan {
         let h = ny / 2;
         columns
             .par_chunks_mut(COLUMNS * py)
-            .zip(image_t.par_chunks(COLUMNS * ny).zip(screen_t.par_chunks(COLUMNS * ny)))
+            .zip(image_t.par_chunks(COLUMNS * ny))
+            .enumerate()
             .for_each_init(
                 || vec![ZERO; fft_y.get_inplace_scratch_len()],
-                |scratch, (buf, (img, screen))| {
+                |scratch, (block, (buf, img))| {
                     let n_cols = img.len() / ny;
                     for c in 0..n_cols {
                         let col = &mut buf[c * py..(c + 1) * py];
-                        let (im, s) = (&img[c * ny..(c + 1) * ny], &screen[c * ny..(c + 1) * ny]);
+                        let im = &img[c * ny..(c + 1) * ny];
+                        let pixels = (block * COLUMNS + c) * ny..(block * COLUMNS + c + 1) * ny;
                         // A model image (CLEAN components) is zero in most columns, whose
                         // transform is zero: no need to compute it.
                         if im.iter().all(|&v| v == 0.0) {
@@ -159,10 +168,18 @@ impl GridPlan {
                         }
                         col[ny - h..py - h].iter_mut().for_each(|v| *v = ZERO);
                         let (bottom, top) = col.split_at_mut(py - h);
-                        for ((g, &v), &s) in
-                            top.iter_mut().chain(&mut bottom[..ny - h]).zip(im).zip(s)
-                        {
-                            *g = s * v;
+                        let g = top.iter_mut().chain(&mut bottom[..ny - h]).zip(im);
+                        match screen_t {
+                            Screen::Real(s) => {
+                                for ((g, &v), &s) in g.zip(&s[pixels]) {
+                                    *g = Complex64::new(s * v, 0.0);
+                                }
+                            }
+                            Screen::Complex(s) => {
+                                for ((g, &v), &s) in g.zip(&s[pixels]) {
+                                    *g = s * v;
+                                }
+                            }
                         }
                         fft_y.process_with_scratch(col, scratch);
                     }
@@ -171,7 +188,7 @@ impl GridPlan {
         let columns = &*columns;
         let gx: Vec<usize> = (0..nx).map(|ix| self.grid_x(ix)).collect();
         let fft_x = &self.fft_x_forward;
-        grid.par_chunks_mut(ROWS * px).enumerate().for_each_init(
+        grid.par_chunks_mut(ROWS * px).enumerate().with_max_len(1).for_each_init(
             || vec![ZERO; fft_x.get_inplace_scratch_len()],
             |scratch, (block, lines)| {
                 let y0 = block * ROWS;
@@ -234,6 +251,25 @@ impl GridPlan {
     }
 }
 
+/// Store (`overwrite`) or add `values` into `out`.
+#[inline(always)]
+fn store(out: &mut [f64], values: impl Iterator<Item = f64>, overwrite: bool) {
+    if overwrite {
+        out.iter_mut().zip(values).for_each(|(v, x)| *v = x);
+    } else {
+        out.iter_mut().zip(values).for_each(|(v, x)| *v += x);
+    }
+}
+
+/// The factor a plane's image is multiplied by, per pixel, in transposed layout `[ix][iy]`.
+#[derive(Clone, Copy, Debug)]
+pub(crate) enum Screen<'a> {
+    /// Real (the grid correction alone, when w is not stacked).
+    Real(&'a [f64]),
+    /// Complex (the correction times a w-plane's phase, or any other complex factor).
+    Complex(&'a [Complex64]),
+}
+
 /// The per-plane factors c(x) · exp(sign · 2πi w_p (n − 1)) of a plan, plane by plane in
 /// increasing order, in transposed layout `[ix][iy]`: exact (one `from_polar` per pixel) every
 /// [`SCREEN_RESEED`] planes, and in between advanced by the constant per-pixel phasor
@@ -269,18 +305,15 @@ impl Screens {
             }
             None => (Vec::new(), Vec::new(), 0.0, 0.0, false),
         };
-        let current = if stacked {
-            vec![ZERO; correction_t.len()]
-        } else {
-            correction_t.par_iter().map(|&c| Complex64::new(c, 0.0)).collect()
-        };
+        let current = if stacked { vec![ZERO; correction_t.len()] } else { Vec::new() };
         Self { correction_t, x_t, step, current, sign, w0, dw, at: None, stacked }
     }
 
-    /// The screen of plane `p` (planes must be asked for in increasing order).
-    pub(crate) fn plane(&mut self, p: usize) -> &[Complex64] {
+    /// The screen of plane `p` (planes must be asked for in increasing order); the real
+    /// correction when w is not stacked.
+    pub(crate) fn plane(&mut self, p: usize) -> Screen<'_> {
         if !self.stacked {
-            return &self.current;
+            return Screen::Real(&self.correction_t);
         }
         match self.at {
             Some(q) if q == p => {}
@@ -304,7 +337,7 @@ impl Screens {
             }
         }
         self.at = Some(p);
-        &self.current
+        Screen::Complex(&self.current)
     }
 }
 
@@ -319,7 +352,7 @@ mod tests {
     fn plan(nx: usize, ny: usize, w_term: WTerm) -> GridPlan {
         let g = ImageGeometry::new(nx, ny, 0.004);
         let params = GridderParams { epsilon: 1e-6, w_term };
-        GridPlan::new(g, &params, WRange::new(-1500.0, 2500.0).unwrap()).unwrap()
+        GridPlan::new(g, &params, WRange::new(-1500.0, 4000.0).unwrap()).unwrap()
     }
 
     fn value(k: usize, seed: f64) -> Complex64 {
@@ -355,7 +388,7 @@ mod tests {
             let mut grid = grid0.clone();
             let screen_t = p.transposed_complex(&screen);
             let mut image_t = vec![0.5; nx * ny];
-            p.add_plane_to_image(&mut grid, &rows, &screen_t, &mut image_t, false);
+            p.add_plane_to_image(&mut grid, &rows, Screen::Complex(&screen_t), &mut image_t, false);
             assert!(grid.iter().all(|v| *v == Complex64::new(0.0, 0.0)), "grid left non-zero");
             for iy in 0..ny {
                 for ix in 0..nx {
@@ -382,7 +415,13 @@ mod tests {
                 let sentinel = Complex64::new(7.0, -7.0);
                 let mut grid = vec![sentinel; px * py];
                 let image_t = p.transposed(&image);
-                p.plane_from_image(&image_t, &screen_t, &rows, &mut columns, &mut grid);
+                p.plane_from_image(
+                    &image_t,
+                    Screen::Complex(&screen_t),
+                    &rows,
+                    &mut columns,
+                    &mut grid,
+                );
                 for y in 0..py {
                     for x in 0..px {
                         let (got, k) = (grid[y * px + x], y * px + x);
@@ -395,6 +434,36 @@ mod tests {
                 }
             }
         }
+    }
+
+    #[test]
+    fn real_screens_act_as_complex_ones_without_phase() {
+        // A real factor s is the complex factor s + 0i: both paths must give the same values
+        // (the complex path is checked against the full 2-D FFT above). Same operations up to
+        // products with exact zeros, so equal to rounding.
+        let p = plan(14, 10, WTerm::Ignore);
+        let (nx, ny, px, py) = (14, 10, p.pad_nx, p.pad_ny);
+        let rows: Vec<bool> = (0..py).map(|y| y % 4 != 2).collect();
+        let real: Vec<f64> = (0..nx * ny).map(|k| 1.0 + 0.3 * (0.9 * k as f64).sin()).collect();
+        let complex: Vec<Complex64> = real.iter().map(|&r| Complex64::new(r, 0.0)).collect();
+        let grid0: Vec<Complex64> = (0..px * py)
+            .map(|k| if rows[k / px] { value(k, 1.7) } else { Complex64::new(0.0, 0.0) })
+            .collect();
+        let image_t: Vec<f64> = (0..nx * ny).map(|k| (0.4 * k as f64).cos()).collect();
+        let mut outputs = Vec::new();
+        for screen in [Screen::Real(&real), Screen::Complex(&complex)] {
+            let mut grid = grid0.clone();
+            let mut out = vec![0.25; nx * ny];
+            p.add_plane_to_image(&mut grid, &rows, screen, &mut out, false);
+            let mut columns = vec![Complex64::new(0.0, 0.0); nx * py];
+            let mut back = vec![Complex64::new(0.0, 0.0); px * py];
+            p.plane_from_image(&image_t, screen, &rows, &mut columns, &mut back);
+            outputs.push((out, back));
+        }
+        let (a, b) = (&outputs[0], &outputs[1]);
+        assert!(a.0.iter().zip(&b.0).all(|(x, y)| (x - y).abs() < 1e-12));
+        assert!(a.1.iter().zip(&b.1).all(|(x, y)| (x - y).norm() < 1e-12));
+        assert!(a.0.iter().any(|&x| (x - 0.25).abs() > 0.1), "not a comparison of zeros");
     }
 
     #[test]
@@ -412,7 +481,8 @@ mod tests {
             // Every plane, then with gaps.
             let order: Vec<usize> = (0..planes.count).filter(|q| q % 5 != 3 || *q < 12).collect();
             for &q in &order {
-                let got = screens.plane(q).to_vec();
+                let Screen::Complex(got) = screens.plane(q) else { panic!("w is stacked") };
+                let got = got.to_vec();
                 let wp = planes.w0 + q as f64 * planes.dw;
                 for iy in 0..12 {
                     for ix in 0..16 {

@@ -141,14 +141,18 @@ impl VisSet {
                 why: "time indices must be below the number of time samples",
             });
         }
-        if let Some(w) = self.weights.iter().find(|w| !(w.is_finite() && **w >= 0.0)) {
+        // Finite and not negative (−0 included; NaN fails both): written as two comparisons of
+        // |w| that vectorise, where `is_finite() && w >= 0.0` compiles to scalar bit tests.
+        if let Some(w) =
+            first_failing(&self.weights, |w| (w.abs() < f64::INFINITY) & (w.abs() == w))
+        {
             return Err(VisSetError::Value {
                 field: "weights",
                 value: w.to_string(),
                 why: "weights must be finite and non-negative",
             });
         }
-        if self.uvw_m.iter().any(|x| !x.is_finite()) {
+        if first_failing(&self.uvw_m, |x| x.abs() < f64::INFINITY).is_some() {
             return Err(VisSetError::Value {
                 field: "uvw_m",
                 value: "non-finite".into(),
@@ -156,5 +160,82 @@ impl VisSet {
             });
         }
         Ok(())
+    }
+}
+
+/// The first value of `a` (in logical order) for which `good` fails. A contiguous array is first
+/// tested as a whole without early exits, which vectorises: this check runs on every visibility
+/// before each gridding call, and almost always passes.
+fn first_failing<S: ndarray::Data<Elem = f64>, D: ndarray::Dimension>(
+    a: &ndarray::ArrayBase<S, D>,
+    good: impl Fn(f64) -> bool,
+) -> Option<f64> {
+    if let Some(s) = a.as_slice_memory_order() {
+        // Eight independent lanes, so that the compiler keeps them in vector registers.
+        let mut ok = [true; 8];
+        let mut blocks = s.chunks_exact(8);
+        for block in &mut blocks {
+            for (ok, &x) in ok.iter_mut().zip(block) {
+                *ok &= good(x);
+            }
+        }
+        if ok.iter().all(|&t| t) && blocks.remainder().iter().all(|&x| good(x)) {
+            return None;
+        }
+    }
+    a.iter().copied().find(|&x| !good(x))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use beamfloor_core::Correlation;
+    use ndarray::{Array2, Array3};
+
+    fn set(n_rows: usize) -> VisSet {
+        VisSet {
+            frequencies_hz: vec![1e9, 1.5e9],
+            channel_width_hz: 1e6,
+            integration_s: 1.0,
+            hour_angles_rad: vec![0.0],
+            parallactic_angles_rad: vec![0.0],
+            phase_centre_ra_rad: 0.0,
+            phase_centre_dec_rad: 0.0,
+            antenna1: vec![0; n_rows],
+            antenna2: vec![1; n_rows],
+            time_index: vec![0; n_rows],
+            uvw_m: Array2::from_elem((n_rows, 3), 10.0),
+            weights: Array3::ones((n_rows, 2, 1)),
+            flags: Array3::from_elem((n_rows, 2, 1), false),
+            data: Array3::zeros((n_rows, 2, 1)),
+            correlations: vec![Correlation::BOTH[0]],
+            seed: 0,
+            truth_hash: String::new(),
+        }
+    }
+
+    /// Every bad weight or coordinate is caught wherever it sits, including past the first block
+    /// of the vectorised whole-array test, and the error names the offending weight.
+    #[test]
+    fn bad_weights_and_coordinates_are_found_anywhere() {
+        let n = 5000;
+        assert!(set(n).validate().is_ok());
+        for at in [0, 4095, 4096, 2 * n - 1] {
+            for bad in [-1.0, f64::NAN, f64::INFINITY] {
+                let mut v = set(n);
+                v.weights[[at / 2, at % 2, 0]] = bad;
+                match v.validate() {
+                    Err(VisSetError::Value { field: "weights", value, .. }) => {
+                        assert_eq!(value, bad.to_string())
+                    }
+                    other => panic!("weight {bad} at {at}: {other:?}"),
+                }
+            }
+        }
+        for at in [0, 3 * n - 1] {
+            let mut v = set(n);
+            v.uvw_m[[at / 3, at % 3]] = f64::NEG_INFINITY;
+            assert!(matches!(v.validate(), Err(VisSetError::Value { field: "uvw_m", .. })));
+        }
     }
 }

@@ -287,7 +287,7 @@ pub fn kernel_table_bytes<B: VoltageBeam + ?Sized>(
     frequencies_hz: &[f64],
     params: &KernelAProjectionParams,
 ) -> Result<KernelTableEstimate, ImagingError> {
-    let plan = GridPlan::new(geometry, &params.gridder, WRange::new(0.0, 0.0)?)?;
+    let plan = GridPlan::unfolded(geometry, &params.gridder, WRange::new(0.0, 0.0)?)?;
     let layout = KernelLayout::new(&plan, beam, n_pa_bins, frequencies_hz, params)?;
     Ok(layout.estimate(params.oversampling))
 }
@@ -378,7 +378,7 @@ impl<'a, B: VoltageBeam + ?Sized> KernelAProjection<'a, B> {
         params: KernelAProjectionParams,
     ) -> Result<Self, ImagingError> {
         check_params(&params)?;
-        let plan = GridPlan::new(geometry, &params.gridder, w_range)?;
+        let plan = GridPlan::unfolded(geometry, &params.gridder, w_range)?;
         if beam.n_antennas() == 0 {
             return Err(ImagingError::Parameter {
                 name: "beam",

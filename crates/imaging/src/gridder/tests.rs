@@ -46,16 +46,23 @@ fn visset(rng: &mut ChaCha8Rng, g: &ImageGeometry, w_max: f64) -> VisSet {
     }
 }
 
-/// Exact taps along x, y and the weight of plane `p` for sample `i`, with the first cells.
+/// Exact taps along x, y and the weight of plane `p` for sample `i`, with the first cells and
+/// whether the sample is mirrored (placed at −(u, v, w), its value conjugated).
 fn exact(
     plan: &GridPlan,
     samples: &Samples,
     i: usize,
     p: usize,
-) -> (Vec<f64>, Vec<f64>, f64, i64, i64) {
+) -> (Vec<f64>, Vec<f64>, f64, i64, i64, bool) {
     let k: &EsKernel = &plan.kernel;
     let w = k.support();
-    let (_, sx, sy, sw) = samples.at(plan, i);
+    let key = samples.key(i);
+    assert_eq!(samples.index(key), i);
+    let (_, sx, sy, sw, flip) = samples.at(plan, key);
+    // Mirroring: the half v < 0 (no w planes) or w < 0 (w planes), read off the row's uvw.
+    let r = i / samples.n_chan;
+    let axis = if plan.planes.is_some() { 2 } else { 1 };
+    assert_eq!(flip, samples.uvw[3 * r + axis] < 0.0);
     let (mut kx, mut ky) = (vec![0.0; w], vec![0.0; w]);
     let gx = k.taps(sx, &mut kx);
     let gy = k.taps(sy, &mut ky);
@@ -63,7 +70,7 @@ fn exact(
         None => 1.0,
         Some(_) => k.phi((p as f64 - sw) / (0.5 * w as f64)),
     };
-    (kx, ky, weight, gx, gy)
+    (kx, ky, weight, gx, gy, flip)
 }
 
 fn cases() -> Vec<GridPlan> {
@@ -110,8 +117,12 @@ fn tiled_spreading_matches_direct_scatter() {
             summed[i * n_src + outputs[o].source] * outputs[o].channel_factors[i % nc]
         };
         let values = GridValues { summed: &summed, n_src, outputs: &outputs };
-        let total: f64 =
-            layout.order.iter().flat_map(|&i| (0..n_out).map(move |o| value(i, o).norm())).sum();
+        let total: f64 = layout
+            .order
+            .iter()
+            .map(|&key| samples.index(key))
+            .flat_map(|i| (0..n_out).map(move |o| value(i, o).norm()))
+            .sum();
         let (px, py) = (plan.pad_nx, plan.pad_ny);
         let mut largest = 0.0f64;
         for p in 0..plan.n_w_planes() {
@@ -119,13 +130,14 @@ fn tiled_spreading_matches_direct_scatter() {
             plan.spread_plane(&samples, &layout, &values, plan.plane_arg(p), &mut grids);
             let mut want = vec![vec![ZERO; px * py]; n_out];
             for i in (0..vis.n_rows() * vis.n_channels()).filter(|&i| keep(i)) {
-                let (kx, ky, weight, gx, gy) = exact(&plan, &samples, i, p);
+                let (kx, ky, weight, gx, gy, flip) = exact(&plan, &samples, i, p);
                 for (o, want) in want.iter_mut().enumerate() {
+                    let v = if flip { value(i, o).conj() } else { value(i, o) };
                     for (j, &b) in ky.iter().enumerate() {
                         for (q, &a) in kx.iter().enumerate() {
                             let x = (gx + q as i64).rem_euclid(px as i64) as usize;
                             let y = (gy + j as i64).rem_euclid(py as i64) as usize;
-                            want[y * px + x] += value(i, o) * (a * b * weight);
+                            want[y * px + x] += v * (a * b * weight);
                         }
                     }
                 }
@@ -175,7 +187,7 @@ fn tiled_interpolation_matches_direct_gather() {
                 &mut acc,
             );
             for (i, want) in want.iter_mut().enumerate() {
-                let (kx, ky, weight, gx, gy) = exact(&plan, &samples, i, p);
+                let (kx, ky, weight, gx, gy, flip) = exact(&plan, &samples, i, p);
                 if weight == 0.0 {
                     continue;
                 }
@@ -188,13 +200,14 @@ fn tiled_interpolation_matches_direct_gather() {
                             sum += grid[y * px + x] * (a * b);
                         }
                     }
+                    let sum = if flip { sum.conj() } else { sum };
                     *want += sum * f[i % nc] * weight;
                 }
             }
         }
         let mut got = vec![ZERO; vis.n_rows() * nc];
-        for (&i, v) in layout.order.iter().zip(&acc) {
-            got[i] = *v;
+        for (&key, v) in layout.order.iter().zip(&acc) {
+            got[samples.index(key)] = *v;
         }
         // Each sample sums ≤ W³ products of grid values of size ≤ 1 (√2 for complex) per image.
         let w = plan.kernel.support() as f64;
@@ -230,6 +243,21 @@ fn reused_grids_give_the_same_bits_as_fresh_ones() {
         for _ in 0..2 {
             assert_eq!(grid(&plan), want_grid);
             assert_eq!(degrid(&plan), want_degrid);
+        }
+    }
+}
+
+/// The divide-free split of a sample index agrees with integer division (the definition) for
+/// channel counts from 1 to 70 and indices up to and around 2^52.
+#[test]
+fn row_split_is_integer_division() {
+    let mut rng = ChaCha8Rng::seed_from_u64(5);
+    for n in 1..=70usize {
+        let split = RowSplit::new(n);
+        let edges = (0..3 * n).chain((1usize << 52) - 3 * n..1 << 52);
+        let random = (0..2000).map(|_| rng.random_range(0..1usize << 52));
+        for i in edges.chain(random) {
+            assert_eq!(split.split(i), (i / n, i % n), "{i} / {n}");
         }
     }
 }

@@ -116,7 +116,7 @@ struct Block {
 
 /// The samples sorted by tile, with the index structures of the tiled passes.
 pub(super) struct Layout {
-    /// Sample indices sorted by (band, tile, first plane, sample index).
+    /// Sample keys (see `Samples`) sorted by (band, tile, first plane, key).
     pub(super) order: Vec<usize>,
     map: TileMap,
     blocks: Vec<Block>,
@@ -129,12 +129,14 @@ pub(super) struct Layout {
 }
 
 impl Layout {
-    /// The samples whose tile in `map` is `tiles[i]` (`NO_TILE`: left out), with first plane
-    /// `first(i)`, sorted for the tiled passes over `n_planes` planes.
+    /// The samples i whose tile in `map` is `tiles[i]` (`NO_TILE`: left out), named by their
+    /// keys `key(i)` (increasing with i), with first plane `first(key)`, sorted for the tiled
+    /// passes over `n_planes` planes.
     pub(super) fn new(
         tiles: &[u32],
         map: TileMap,
         n_planes: usize,
+        key: impl Fn(usize) -> usize + Sync,
         first: impl Fn(usize) -> u32 + Sync,
     ) -> Self {
         let n_tiles = map.bands() * map.tiles_x;
@@ -149,7 +151,7 @@ impl Layout {
         let mut next = tile_starts.clone();
         let mut order = vec![0usize; tile_starts[n_tiles]];
         for (i, &t) in tiles.iter().enumerate().filter(|(_, &t)| t != NO_TILE) {
-            order[next[t as usize]] = i;
+            order[next[t as usize]] = key(i);
             next[t as usize] += 1;
         }
         let firsts: Vec<u32> = if n_planes > 1 {
@@ -286,6 +288,8 @@ struct Footprint {
     dy: usize,
     chan: usize,
     weight: f64,
+    /// The sample is mirrored (see `Samples::at`): its value is conjugated.
+    flip: bool,
 }
 
 impl Footprint {
@@ -298,18 +302,19 @@ impl Footprint {
             dy: 0,
             chan: 0,
             weight: 0.0,
+            flip: false,
         }
     }
 }
 
 impl Job<'_> {
-    /// Fill `f` for sample `i` of tile column `tx`; false when the sample has no weight on the
-    /// job's plane.
+    /// Fill `f` for the sample with key `key` in tile column `tx`; false when the sample has no
+    /// weight on the job's plane.
     #[inline(always)]
-    fn footprint<R: TileRows>(&self, i: usize, tx: u32, f: &mut Footprint) -> bool {
+    fn footprint<R: TileRows>(&self, key: usize, tx: u32, f: &mut Footprint) -> bool {
         let plan = self.plan;
         let poly = &plan.poly;
-        let (c, sx, sy, w) = self.samples.at(plan, i);
+        let (c, sx, sy, w, flip) = self.samples.at(plan, key);
         let (gx, gy) = match self.plane {
             None => {
                 f.weight = 1.0;
@@ -336,16 +341,17 @@ impl Job<'_> {
         f.dy = wrap(gy, map.pad_ny) - map.starts[self.band];
         debug_assert!(f.dx < TILE && f.dy < map.starts[self.band + 1] - map.starts[self.band]);
         f.chan = c;
+        f.flip = flip;
         true
     }
 
     /// Prefetch the uvw (and the values, when gridding) of sorted sample `k` + `AHEAD`.
     #[inline(always)]
     fn prefetch(&self, k: usize, values: Option<&GridValues>) {
-        if let Some(&i) = self.layout.order.get(k + AHEAD) {
-            prefetch(&self.samples.uvw[3 * (i / self.samples.n_chan)]);
+        if let Some(&key) = self.layout.order.get(k + AHEAD) {
+            prefetch(&self.samples.uvw[3 * self.samples.row_chan(key).0]);
             if let Some(v) = values {
-                prefetch(&v.summed[i * v.n_src]);
+                prefetch(&v.summed[self.samples.index(key) * v.n_src]);
             }
         }
     }
@@ -366,8 +372,8 @@ impl Job<'_> {
         };
         let mut rect = None;
         for bl in blocks {
-            for &i in &self.layout.order[bl.start..bl.end] {
-                let (_, sx, sy, sw) = self.samples.at(plan, i);
+            for &key in &self.layout.order[bl.start..bl.end] {
+                let (_, sx, sy, sw, _) = self.samples.at(plan, key);
                 let (first, count) = plan.plane_span(sw);
                 if p < first || p >= first + count {
                     continue;
@@ -409,16 +415,18 @@ impl Job<'_> {
             for bl in blocks {
                 for k in bl.start..bl.end {
                     self.prefetch(k, Some(values));
-                    let i = self.layout.order[k];
-                    if !self.footprint::<R>(i, tx, &mut f) {
+                    let key = self.layout.order[k];
+                    if !self.footprint::<R>(key, tx, &mut f) {
                         continue;
                     }
+                    let i = self.samples.index(key);
                     let at = (f.dx, f.dy, w);
                     for (o, chunk) in buf.chunks_exact_mut(2 * BUFFER).enumerate() {
                         let v = values.get(i, f.chan, o);
                         if v == ZERO {
                             continue;
                         }
+                        let v = if f.flip { v.conj() } else { v };
                         let (re, im) = chunk.split_at_mut(BUFFER);
                         R::spread::<L>(re, im, at, &f.kx, &f.ky, v * f.weight);
                     }
@@ -547,6 +555,7 @@ impl Job<'_> {
                         let (re, im) = chunk.split_at(BUFFER);
                         sum += R::interpolate::<L>(re, im, at, &f.kx, &f.ky) * fc;
                     }
+                    let sum = if f.flip { sum.conj() } else { sum };
                     acc[k - first_sample] += sum * f.weight;
                 }
             }
@@ -625,7 +634,8 @@ impl GridPlan {
                     (b, BandGrids { own, next })
                 })
                 .collect();
-            tasks.into_par_iter().for_each(|(band, mut g)| {
+            // One task per band (work is uneven: the bands near v = 0 hold most samples).
+            tasks.into_par_iter().with_max_len(1).for_each(|(band, mut g)| {
                 let job = Job { plan: self, samples, layout, band, plane };
                 match (simd, lanes) {
                     #[cfg(target_arch = "x86_64")]
@@ -666,7 +676,7 @@ impl GridPlan {
             slots.push(band);
             rest = tail;
         }
-        slots.into_par_iter().enumerate().for_each(|(band, acc)| {
+        slots.into_par_iter().enumerate().with_max_len(1).for_each(|(band, acc)| {
             let job = Job { plan: self, samples, layout, band, plane };
             match (simd, lanes) {
                 #[cfg(target_arch = "x86_64")]
