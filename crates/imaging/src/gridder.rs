@@ -21,6 +21,8 @@ use ndarray::{Array2, Array3, ArrayView3};
 use num_complex::Complex64;
 use rayon::prelude::*;
 use std::borrow::Cow;
+#[cfg(test)]
+use tiles::sort_by_tile;
 use tiles::{GridValues, Layout, TileMap, NO_TILE};
 
 #[cfg(test)]

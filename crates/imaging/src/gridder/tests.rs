@@ -261,3 +261,34 @@ fn row_split_is_integer_division() {
         }
     }
 }
+
+/// The parallel counting sort gives the serial stable sort's order (std's stable `sort_by_key`
+/// on the tile, the reference) for sample counts below, at and far above the number of runs,
+/// with left-out samples and empty tiles; the tile starts count the samples before each tile.
+#[test]
+fn parallel_tile_sort_is_the_stable_sort() {
+    let mut rng = ChaCha8Rng::seed_from_u64(9);
+    for (n, n_tiles) in [(0, 3), (1, 1), (5, 4), (8, 2), (9, 40), (1000, 7), (20_000, 300)] {
+        let tiles: Vec<u32> =
+            (0..n)
+                .map(|_| {
+                    if rng.random_range(0..5) == 0 {
+                        NO_TILE
+                    } else {
+                        rng.random_range(0..n_tiles)
+                    }
+                })
+                .collect();
+        let (order, starts) = sort_by_tile(&tiles, n_tiles as usize, |i| 3 * i + 1);
+        let mut want: Vec<usize> = (0..n).filter(|&i| tiles[i] != NO_TILE).collect();
+        want.sort_by_key(|&i| tiles[i]);
+        let want: Vec<usize> = want.into_iter().map(|i| 3 * i + 1).collect();
+        assert_eq!(order, want, "{n} samples, {n_tiles} tiles");
+        assert_eq!(starts.len(), n_tiles as usize + 1);
+        for t in 0..n_tiles as usize {
+            let before = tiles.iter().filter(|&&x| x != NO_TILE && (x as usize) < t).count();
+            assert_eq!(starts[t], before);
+        }
+        assert_eq!(starts[n_tiles as usize], order.len());
+    }
+}

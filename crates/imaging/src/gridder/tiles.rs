@@ -128,6 +128,81 @@ pub(super) struct Layout {
     on_plane: Vec<bool>,
 }
 
+/// Runs the samples are cut into for the parallel counting sort (any count gives the same
+/// order; a few per thread keep both threads busy).
+const SORT_RUNS: usize = 8;
+
+/// Stable counting sort of the samples by tile: the keys `key(i)` of the samples i with
+/// `tiles[i]` ≠ `NO_TILE`, ordered by (tile, i), and the first position of every tile (plus the
+/// total at the end).
+///
+/// In parallel: the samples are cut into runs of consecutive i; each run counts its tiles; within
+/// every tile the runs' slots follow one another in run order; and each run then writes its
+/// samples, in order, into its own slots. The result is the serial sort's, whatever the number
+/// of runs or threads.
+pub(super) fn sort_by_tile(
+    tiles: &[u32],
+    n_tiles: usize,
+    key: impl Fn(usize) -> usize + Sync,
+) -> (Vec<usize>, Vec<usize>) {
+    let n = tiles.len();
+    let runs = SORT_RUNS.min(n).max(1);
+    let bounds: Vec<usize> = (0..=runs).map(|r| r * n / runs).collect();
+    let counts: Vec<Vec<usize>> = (0..runs)
+        .into_par_iter()
+        .map(|r| {
+            let mut count = vec![0usize; n_tiles];
+            for &t in tiles[bounds[r]..bounds[r + 1]].iter().filter(|&&t| t != NO_TILE) {
+                count[t as usize] += 1;
+            }
+            count
+        })
+        .collect();
+    let mut tile_starts = vec![0usize; n_tiles + 1];
+    let mut slots = vec![vec![0usize; n_tiles]; runs];
+    let mut next = 0;
+    for t in 0..n_tiles {
+        tile_starts[t] = next;
+        for (slot, count) in slots.iter_mut().zip(&counts) {
+            slot[t] = next;
+            next += count[t];
+        }
+    }
+    tile_starts[n_tiles] = next;
+    let mut order = vec![0usize; next];
+    let out = SharedSlots { ptr: order.as_mut_ptr(), len: next };
+    slots.into_par_iter().enumerate().for_each(|(r, mut slot)| {
+        for (i, &t) in tiles.iter().enumerate().take(bounds[r + 1]).skip(bounds[r]) {
+            if t != NO_TILE {
+                out.write(slot[t as usize], key(i));
+                slot[t as usize] += 1;
+            }
+        }
+    });
+    (order, tile_starts)
+}
+
+/// The output of [`sort_by_tile`], written by all runs at once, each only at its own slots.
+struct SharedSlots {
+    ptr: *mut usize,
+    len: usize,
+}
+
+// SAFETY: the runs write disjoint positions (each its own slots, see `sort_by_tile`), and the
+// buffer outlives the parallel loop that writes it; nothing reads it meanwhile.
+unsafe impl Sync for SharedSlots {}
+
+impl SharedSlots {
+    #[inline(always)]
+    fn write(&self, at: usize, value: usize) {
+        assert!(at < self.len, "slot {at} outside the {} sorted samples", self.len);
+        // SAFETY: `at` is inside the buffer (checked above), and no other run writes position
+        // `at`: run r's slots in tile t are [slots_r(t), slots_r(t) + count_r(t)), disjoint from
+        // every other run's and tile's, and run r writes exactly count_r(t) samples there.
+        unsafe { *self.ptr.add(at) = value };
+    }
+}
+
 impl Layout {
     /// The samples i whose tile in `map` is `tiles[i]` (`NO_TILE`: left out), named by their
     /// keys `key(i)` (increasing with i), with first plane `first(key)`, sorted for the tiled
@@ -140,22 +215,10 @@ impl Layout {
         first: impl Fn(usize) -> u32 + Sync,
     ) -> Self {
         let n_tiles = map.bands() * map.tiles_x;
-        // Counting sort by tile (stable: sample order within a tile is kept).
-        let mut tile_starts = vec![0usize; n_tiles + 1];
-        for &t in tiles.iter().filter(|&&t| t != NO_TILE) {
-            tile_starts[t as usize + 1] += 1;
-        }
-        for t in 0..n_tiles {
-            tile_starts[t + 1] += tile_starts[t];
-        }
-        let mut next = tile_starts.clone();
-        let mut order = vec![0usize; tile_starts[n_tiles]];
-        for (i, &t) in tiles.iter().enumerate().filter(|(_, &t)| t != NO_TILE) {
-            order[next[t as usize]] = key(i);
-            next[t as usize] += 1;
-        }
-        let firsts: Vec<u32> = if n_planes > 1 {
-            let mut keyed: Vec<(u32, usize)> = order.par_iter().map(|&i| (first(i), i)).collect();
+        let (mut order, tile_starts) = sort_by_tile(tiles, n_tiles, key);
+        // Within a tile, by first plane (and by key within one first plane).
+        let firsts: Option<Vec<u32>> = (n_planes > 1).then(|| {
+            let mut keyed: Vec<(u32, usize)> = order.par_iter().map(|&k| (first(k), k)).collect();
             let mut rest: &mut [(u32, usize)] = &mut keyed;
             let mut buckets = Vec::with_capacity(n_tiles);
             for t in 0..n_tiles {
@@ -163,28 +226,43 @@ impl Layout {
                 buckets.push(bucket);
                 rest = tail;
             }
-            // (first, sample) pairs are distinct, so the order is fully determined.
+            // (first, key) pairs are distinct, so the order is fully determined.
             buckets.into_par_iter().for_each(|b| b.sort_unstable());
-            order.iter_mut().zip(&keyed).for_each(|(o, k)| *o = k.1);
-            keyed.into_iter().map(|k| k.0).collect()
-        } else {
-            vec![0; order.len()]
-        };
-        let mut blocks: Vec<Block> = Vec::new();
-        for t in 0..n_tiles {
-            let tx = (t % map.tiles_x) as u32;
-            let (a, z) = (tile_starts[t], tile_starts[t + 1]);
-            for (k, &first) in (a..z).zip(&firsts[a..z]) {
-                match blocks.last_mut() {
-                    Some(b) if b.end == k && k > a && b.first == first => b.end = k + 1,
-                    _ => blocks.push(Block { tx, first, start: k, end: k + 1 }),
+            order.par_iter_mut().zip(&keyed).for_each(|(o, k)| *o = k.1);
+            keyed.into_par_iter().map(|k| k.0).collect()
+        });
+        // Blocks band by band (in parallel), then joined in band order.
+        let per_band: Vec<Vec<Block>> = (0..map.bands())
+            .into_par_iter()
+            .map(|b| {
+                let mut blocks: Vec<Block> = Vec::new();
+                for t in b * map.tiles_x..(b + 1) * map.tiles_x {
+                    let tx = (t % map.tiles_x) as u32;
+                    let (a, z) = (tile_starts[t], tile_starts[t + 1]);
+                    let Some(firsts) = &firsts else {
+                        if a < z {
+                            blocks.push(Block { tx, first: 0, start: a, end: z });
+                        }
+                        continue;
+                    };
+                    for (k, &first) in (a..z).zip(&firsts[a..z]) {
+                        match blocks.last_mut() {
+                            Some(b) if b.end == k && k > a && b.first == first => b.end = k + 1,
+                            _ => blocks.push(Block { tx, first, start: k, end: k + 1 }),
+                        }
+                    }
                 }
-            }
+                blocks
+            })
+            .collect();
+        let mut band_blocks = Vec::with_capacity(map.bands() + 1);
+        band_blocks.push(0);
+        for b in &per_band {
+            band_blocks.push(band_blocks.last().copied().unwrap_or(0) + b.len());
         }
+        let blocks: Vec<Block> = per_band.into_iter().flatten().collect();
         let band_samples: Vec<usize> =
             (0..=map.bands()).map(|b| tile_starts[b * map.tiles_x]).collect();
-        let band_blocks =
-            band_samples.iter().map(|&k| blocks.partition_point(|b| b.start < k)).collect();
         // A plane holds samples when a block starts within W planes below it (a superset when
         // spans are cut at the last plane; empty planes then only cost an FFT of zero rows).
         let mut on_plane = vec![false; n_planes];
