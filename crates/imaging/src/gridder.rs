@@ -358,7 +358,7 @@ impl ImagingOperator for GridPlan {
             let mut grids = self.pool.take_any(images.len(), px * py);
             let mut columns = self.pool.take_any(1, nx * py).pop().expect("one buffer");
             let mut rows = vec![false; py];
-            let mut acc = fresh_grid(layout.order.len());
+            let all = out.as_slice_mut().expect("fresh array is contiguous");
             let correction =
                 self.inverse_correction.as_slice().expect("plan arrays are contiguous");
             let mut screens = Screens::new(self, correction, -1.0);
@@ -373,16 +373,10 @@ impl ImagingOperator for GridPlan {
                 for (image_t, grid) in images_t.iter().zip(grids.iter_mut()) {
                     self.plane_from_image(image_t, screen, &rows, &mut columns, grid);
                 }
-                self.interpolate_plane(&samples, &layout, &grids, channel_factors, plane, &mut acc);
+                self.interpolate_plane(&samples, &layout, &grids, channel_factors, plane, all, np);
             }
             grids.push(columns);
             self.pool.give_back(grids, false);
-            // The same value for every correlation of the sample.
-            let all = out.as_slice_mut().expect("fresh array is contiguous");
-            for (&key, v) in layout.order.iter().zip(acc) {
-                let i = samples.index(key);
-                all[i * np..(i + 1) * np].iter_mut().for_each(|x| *x = v);
-            }
         }
         Ok(out)
     }

@@ -122,8 +122,6 @@ pub(super) struct Layout {
     blocks: Vec<Block>,
     /// Blocks of band b: `blocks[band_blocks[b]..band_blocks[b + 1]]`.
     band_blocks: Vec<usize>,
-    /// Samples of band b: `order[band_samples[b]..band_samples[b + 1]]`.
-    band_samples: Vec<usize>,
     /// Whether any sample has a non-zero weight on plane p.
     on_plane: Vec<bool>,
 }
@@ -170,11 +168,14 @@ pub(super) fn sort_by_tile(
     }
     tile_starts[n_tiles] = next;
     let mut order = vec![0usize; next];
-    let out = SharedSlots { ptr: order.as_mut_ptr(), len: next };
+    let out = Disjoint::new(&mut order);
     slots.into_par_iter().enumerate().for_each(|(r, mut slot)| {
         for (i, &t) in tiles.iter().enumerate().take(bounds[r + 1]).skip(bounds[r]) {
             if t != NO_TILE {
-                out.write(slot[t as usize], key(i));
+                // SAFETY: run r's slots in tile t, [slots_r(t), slots_r(t) + count_r(t)), are
+                // disjoint from every other run's and tile's, and run r writes exactly
+                // count_r(t) samples there, one per position.
+                unsafe { *out.slot(slot[t as usize]) = key(i) };
                 slot[t as usize] += 1;
             }
         }
@@ -182,24 +183,34 @@ pub(super) fn sort_by_tile(
     (order, tile_starts)
 }
 
-/// The output of [`sort_by_tile`], written by all runs at once, each only at its own slots.
-struct SharedSlots {
-    ptr: *mut usize,
+/// A buffer that several tasks write at once, each only at positions no other task touches
+/// during the parallel loop (the callers below say why, case by case).
+pub(super) struct Disjoint<'a, T> {
+    ptr: *mut T,
     len: usize,
+    _buffer: std::marker::PhantomData<&'a mut [T]>,
 }
 
-// SAFETY: the runs write disjoint positions (each its own slots, see `sort_by_tile`), and the
-// buffer outlives the parallel loop that writes it; nothing reads it meanwhile.
-unsafe impl Sync for SharedSlots {}
+// SAFETY: handing the pointer to other threads is sound because every access goes through
+// `Disjoint::slot`, whose callers guarantee that no two threads touch one position.
+unsafe impl<T: Send> Sync for Disjoint<'_, T> {}
 
-impl SharedSlots {
+impl<'a, T> Disjoint<'a, T> {
+    pub(super) fn new(buffer: &'a mut [T]) -> Self {
+        Self { ptr: buffer.as_mut_ptr(), len: buffer.len(), _buffer: std::marker::PhantomData }
+    }
+
+    /// The value at `at` (checked against the length).
+    ///
+    /// # Safety
+    /// While the returned reference lives, no other thread may access position `at`.
     #[inline(always)]
-    fn write(&self, at: usize, value: usize) {
-        assert!(at < self.len, "slot {at} outside the {} sorted samples", self.len);
-        // SAFETY: `at` is inside the buffer (checked above), and no other run writes position
-        // `at`: run r's slots in tile t are [slots_r(t), slots_r(t) + count_r(t)), disjoint from
-        // every other run's and tile's, and run r writes exactly count_r(t) samples there.
-        unsafe { *self.ptr.add(at) = value };
+    #[allow(clippy::mut_from_ref)]
+    pub(super) unsafe fn slot(&self, at: usize) -> &mut T {
+        assert!(at < self.len, "position {at} outside a buffer of {}", self.len);
+        // SAFETY: `at` is inside the buffer, which the borrow `'a` keeps alive and unaliased
+        // outside this type; exclusive access to the position is the caller's promise.
+        unsafe { &mut *self.ptr.add(at) }
     }
 }
 
@@ -261,15 +272,13 @@ impl Layout {
             band_blocks.push(band_blocks.last().copied().unwrap_or(0) + b.len());
         }
         let blocks: Vec<Block> = per_band.into_iter().flatten().collect();
-        let band_samples: Vec<usize> =
-            (0..=map.bands()).map(|b| tile_starts[b * map.tiles_x]).collect();
         // A plane holds samples when a block starts within W planes below it (a superset when
         // spans are cut at the last plane; empty planes then only cost an FFT of zero rows).
         let mut on_plane = vec![false; n_planes];
         for b in &blocks {
             on_plane[b.first as usize] = true;
         }
-        Self { order, map, blocks, band_blocks, band_samples, on_plane }
+        Self { order, map, blocks, band_blocks, on_plane }
     }
 
     /// Whether any sample may touch plane `p` (W = `support`).
@@ -578,13 +587,13 @@ impl Job<'_> {
         &self,
         grids: &[Vec<Complex64>],
         factors: &[Vec<f64>],
-        acc: &mut [Complex64],
+        out: &Disjoint<Complex64>,
+        np: usize,
     ) {
         let map = &self.layout.map;
         let (px, py) = (map.pad_nx, map.pad_ny);
         let w = self.plan.kernel.support();
         let start = map.starts[self.band];
-        let first_sample = self.layout.band_samples[self.band];
         let mut buf = vec![0.0f64; 2 * grids.len() * BUFFER];
         let mut f = Footprint::new();
         let (on, groups) = self.tile_groups();
@@ -633,8 +642,13 @@ impl Job<'_> {
                         let (re, im) = chunk.split_at(BUFFER);
                         sum += R::interpolate::<L>(re, im, at, &f.kx, &f.ky) * fc;
                     }
-                    let sum = if f.flip { sum.conj() } else { sum };
-                    acc[k - first_sample] += sum * f.weight;
+                    let sum = if f.flip { sum.conj() } else { sum } * f.weight;
+                    let i = self.samples.index(self.layout.order[k]);
+                    for slot in i * np..(i + 1) * np {
+                        // SAFETY: every sample key sits once in the layout's order, and the
+                        // bands split the order: only this task touches sample i's values.
+                        unsafe { *out.slot(slot) += sum };
+                    }
                 }
             }
         }
@@ -653,9 +667,10 @@ fn interpolate_band_avx<const L: usize>(
     job: &Job,
     grids: &[Vec<Complex64>],
     factors: &[Vec<f64>],
-    acc: &mut [Complex64],
+    out: &Disjoint<Complex64>,
+    np: usize,
 ) {
-    job.interpolate_band::<AvxRows, L>(grids, factors, acc)
+    job.interpolate_band::<AvxRows, L>(grids, factors, out, np)
 }
 
 /// Split `grid` (pad_ny rows of `px`) into the rows of every band.
@@ -735,7 +750,9 @@ impl GridPlan {
     }
 
     /// Interpolate every sample of `layout` that touches plane `plane` from `grids` (one per
-    /// image; `factors[image][chan]`), adding into `acc[k]` for sorted sample k.
+    /// image; `factors[image][chan]`), adding it into each of the `np` values of sample i in
+    /// `out` (`[i][correlation]`).
+    #[allow(clippy::too_many_arguments)]
     pub(super) fn interpolate_plane(
         &self,
         samples: &Samples,
@@ -743,41 +760,37 @@ impl GridPlan {
         grids: &[Vec<Complex64>],
         factors: &[Vec<f64>],
         plane: Option<usize>,
-        acc: &mut [Complex64],
+        out: &mut [Complex64],
+        np: usize,
     ) {
         let simd = Simd::detect();
         let lanes = self.poly.lanes();
-        let mut rest = acc;
-        let mut slots = Vec::with_capacity(layout.map.bands());
-        for w in layout.band_samples.windows(2) {
-            let (band, tail) = rest.split_at_mut(w[1] - w[0]);
-            slots.push(band);
-            rest = tail;
-        }
-        slots.into_par_iter().enumerate().with_max_len(1).for_each(|(band, acc)| {
+        let out = &Disjoint::new(out);
+        (0..layout.map.bands()).into_par_iter().with_max_len(1).for_each(|band| {
             let job = Job { plan: self, samples, layout, band, plane };
+            let acc = (out, np);
             match (simd, lanes) {
                 #[cfg(target_arch = "x86_64")]
                 // SAFETY: Simd::detect found AVX2 and FMA on this CPU.
                 (Simd::Avx2Fma, 4) => unsafe {
-                    interpolate_band_avx::<4>(&job, grids, factors, acc)
+                    interpolate_band_avx::<4>(&job, grids, factors, acc.0, acc.1)
                 },
                 #[cfg(target_arch = "x86_64")]
                 (Simd::Avx2Fma, 8) => unsafe {
-                    interpolate_band_avx::<8>(&job, grids, factors, acc)
+                    interpolate_band_avx::<8>(&job, grids, factors, acc.0, acc.1)
                 },
                 #[cfg(target_arch = "x86_64")]
                 (Simd::Avx2Fma, 12) => unsafe {
-                    interpolate_band_avx::<12>(&job, grids, factors, acc)
+                    interpolate_band_avx::<12>(&job, grids, factors, acc.0, acc.1)
                 },
                 #[cfg(target_arch = "x86_64")]
                 (Simd::Avx2Fma, _) => unsafe {
-                    interpolate_band_avx::<16>(&job, grids, factors, acc)
+                    interpolate_band_avx::<16>(&job, grids, factors, acc.0, acc.1)
                 },
-                (_, 4) => job.interpolate_band::<ScalarRows, 4>(grids, factors, acc),
-                (_, 8) => job.interpolate_band::<ScalarRows, 8>(grids, factors, acc),
-                (_, 12) => job.interpolate_band::<ScalarRows, 12>(grids, factors, acc),
-                _ => job.interpolate_band::<ScalarRows, 16>(grids, factors, acc),
+                (_, 4) => job.interpolate_band::<ScalarRows, 4>(grids, factors, acc.0, acc.1),
+                (_, 8) => job.interpolate_band::<ScalarRows, 8>(grids, factors, acc.0, acc.1),
+                (_, 12) => job.interpolate_band::<ScalarRows, 12>(grids, factors, acc.0, acc.1),
+                _ => job.interpolate_band::<ScalarRows, 16>(grids, factors, acc.0, acc.1),
             }
         });
     }
