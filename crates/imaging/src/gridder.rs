@@ -23,7 +23,7 @@ use rayon::prelude::*;
 use std::borrow::Cow;
 #[cfg(test)]
 use tiles::sort_by_tile;
-use tiles::{GridValues, Layout, TileMap, NO_TILE};
+use tiles::{Destination, GridValues, Layout, TileMap, NO_TILE};
 
 #[cfg(test)]
 mod tests;
@@ -359,6 +359,16 @@ impl ImagingOperator for GridPlan {
             let mut columns = self.pool.take_any(1, nx * py).pop().expect("one buffer");
             let mut rows = vec![false; py];
             let all = out.as_slice_mut().expect("fresh array is contiguous");
+            // One plane: each sample's value goes straight to its place. Several: each sample
+            // adds up to W planes, summed in layout order (sequential within a tile) and put in
+            // place once at the end.
+            let sorted = self.n_w_planes() > 1;
+            let mut acc = if sorted { fresh_grid(layout.order.len()) } else { Vec::new() };
+            let (target, dest) = if sorted {
+                (&mut acc[..], Destination::Sorted)
+            } else {
+                (&mut all[..], Destination::Samples(np))
+            };
             let correction =
                 self.inverse_correction.as_slice().expect("plan arrays are contiguous");
             let mut screens = Screens::new(self, correction, -1.0);
@@ -373,10 +383,25 @@ impl ImagingOperator for GridPlan {
                 for (image_t, grid) in images_t.iter().zip(grids.iter_mut()) {
                     self.plane_from_image(image_t, screen, &rows, &mut columns, grid);
                 }
-                self.interpolate_plane(&samples, &layout, &grids, channel_factors, plane, all, np);
+                self.interpolate_plane(
+                    &samples,
+                    &layout,
+                    &grids,
+                    channel_factors,
+                    plane,
+                    target,
+                    dest,
+                );
             }
             grids.push(columns);
             self.pool.give_back(grids, false);
+            if sorted {
+                // The same value for every correlation of the sample.
+                for (&key, v) in layout.order.iter().zip(acc) {
+                    let i = samples.index(key);
+                    all[i * np..(i + 1) * np].iter_mut().for_each(|x| *x = v);
+                }
+            }
         }
         Ok(out)
     }

@@ -23,9 +23,9 @@ use std::sync::Arc;
 
 const ZERO: Complex64 = Complex64 { re: 0.0, im: 0.0 };
 /// Image columns per task of the column pass (one buffer of `COLUMNS` × pad_ny).
-const COLUMNS: usize = 8;
+const COLUMNS: usize = 16;
 /// Grid rows per task of the row pass of `plane_from_image` (one gather of `ROWS` rows).
-const ROWS: usize = 8;
+const ROWS: usize = 16;
 /// Screens are recomputed exactly every this many planes (in between they advance by a
 /// multiplication, whose rounding grows by about 1e-16 per step).
 const SCREEN_RESEED: usize = 16;

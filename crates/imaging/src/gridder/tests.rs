@@ -168,6 +168,8 @@ fn tiled_interpolation_matches_direct_gather() {
         let factors = vec![vec![1.0, 0.5, -0.25, 2.0], vec![0.3, 0.0, 1.1, -0.7]];
         // Two correlations per sample: both receive the sample's value.
         let mut got2 = vec![ZERO; 2 * vis.n_rows() * nc];
+        // And in layout order.
+        let mut sorted = vec![ZERO; layout.order.len()];
         let mut want = vec![ZERO; vis.n_rows() * nc];
         for p in 0..plan.n_w_planes() {
             let grids: Vec<Vec<Complex64>> = (0..2)
@@ -186,7 +188,16 @@ fn tiled_interpolation_matches_direct_gather() {
                 &factors,
                 plan.plane_arg(p),
                 &mut got2,
-                2,
+                Destination::Samples(2),
+            );
+            plan.interpolate_plane(
+                &samples,
+                &layout,
+                &grids,
+                &factors,
+                plan.plane_arg(p),
+                &mut sorted,
+                Destination::Sorted,
             );
             for (i, want) in want.iter_mut().enumerate() {
                 let (kx, ky, weight, gx, gy, flip) = exact(&plan, &samples, i, p);
@@ -209,6 +220,9 @@ fn tiled_interpolation_matches_direct_gather() {
         }
         assert!(got2.chunks(2).all(|c| c[0] == c[1]));
         let got: Vec<Complex64> = got2.chunks(2).map(|c| c[0]).collect();
+        for (&key, v) in layout.order.iter().zip(&sorted) {
+            assert_eq!(*v, got[samples.index(key)]);
+        }
         // Each sample sums ≤ W³ products of grid values of size ≤ 1 (√2 for complex) per image.
         let w = plan.kernel.support() as f64;
         let tol = tolerance(&plan, 2.0 * 2.2 * 2f64.sqrt() * w.powi(3));

@@ -356,6 +356,16 @@ impl GridValues<'_> {
     }
 }
 
+/// Where interpolation adds each sample's value.
+#[derive(Clone, Copy, Debug)]
+pub(super) enum Destination {
+    /// Slot k for the k-th sample of the layout's order: sequential within a tile, for values
+    /// summed over many planes.
+    Sorted,
+    /// Slots i · np .. (i + 1) · np for sample i (its np correlations all get the value).
+    Samples(usize),
+}
+
 /// Everything a band task reads.
 struct Job<'a> {
     plan: &'a GridPlan,
@@ -588,7 +598,7 @@ impl Job<'_> {
         grids: &[Vec<Complex64>],
         factors: &[Vec<f64>],
         out: &Disjoint<Complex64>,
-        np: usize,
+        dest: Destination,
     ) {
         let map = &self.layout.map;
         let (px, py) = (map.pad_nx, map.pad_ny);
@@ -643,11 +653,18 @@ impl Job<'_> {
                         sum += R::interpolate::<L>(re, im, at, &f.kx, &f.ky) * fc;
                     }
                     let sum = if f.flip { sum.conj() } else { sum } * f.weight;
-                    let i = self.samples.index(self.layout.order[k]);
-                    for slot in i * np..(i + 1) * np {
-                        // SAFETY: every sample key sits once in the layout's order, and the
-                        // bands split the order: only this task touches sample i's values.
-                        unsafe { *out.slot(slot) += sum };
+                    match dest {
+                        // SAFETY: the bands split the order, so slot k is this task's alone.
+                        Destination::Sorted => unsafe { *out.slot(k) += sum },
+                        Destination::Samples(np) => {
+                            let i = self.samples.index(self.layout.order[k]);
+                            for slot in i * np..(i + 1) * np {
+                                // SAFETY: every sample key sits once in the layout's order,
+                                // and the bands split the order: only this task touches
+                                // sample i's values.
+                                unsafe { *out.slot(slot) += sum };
+                            }
+                        }
                     }
                 }
             }
@@ -668,9 +685,9 @@ fn interpolate_band_avx<const L: usize>(
     grids: &[Vec<Complex64>],
     factors: &[Vec<f64>],
     out: &Disjoint<Complex64>,
-    np: usize,
+    dest: Destination,
 ) {
-    job.interpolate_band::<AvxRows, L>(grids, factors, out, np)
+    job.interpolate_band::<AvxRows, L>(grids, factors, out, dest)
 }
 
 /// Split `grid` (pad_ny rows of `px`) into the rows of every band.
@@ -750,8 +767,7 @@ impl GridPlan {
     }
 
     /// Interpolate every sample of `layout` that touches plane `plane` from `grids` (one per
-    /// image; `factors[image][chan]`), adding it into each of the `np` values of sample i in
-    /// `out` (`[i][correlation]`).
+    /// image; `factors[image][chan]`), adding it into `out` at the sample's places (`dest`).
     #[allow(clippy::too_many_arguments)]
     pub(super) fn interpolate_plane(
         &self,
@@ -761,14 +777,14 @@ impl GridPlan {
         factors: &[Vec<f64>],
         plane: Option<usize>,
         out: &mut [Complex64],
-        np: usize,
+        dest: Destination,
     ) {
         let simd = Simd::detect();
         let lanes = self.poly.lanes();
         let out = &Disjoint::new(out);
         (0..layout.map.bands()).into_par_iter().with_max_len(1).for_each(|band| {
             let job = Job { plan: self, samples, layout, band, plane };
-            let acc = (out, np);
+            let acc = (out, dest);
             match (simd, lanes) {
                 #[cfg(target_arch = "x86_64")]
                 // SAFETY: Simd::detect found AVX2 and FMA on this CPU.
