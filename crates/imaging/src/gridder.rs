@@ -294,9 +294,6 @@ impl ImagingOperator for GridPlan {
         let values = GridValues { summed, n_src, outputs };
         let w = self.kernel.support();
         let mut grids = self.pool.take(n_out, px * py);
-        for g in grids.iter_mut() {
-            g.fill(ZERO);
-        }
         let mut rows = vec![false; py];
         let mut images_t = vec![vec![0.0; nx * ny]; n_out];
         let correction = self.inverse_correction.as_slice().expect("plan arrays are contiguous");
