@@ -1,9 +1,10 @@
 //! The gridding and degridding passes of [`GridPlan`]: ES-kernel spreading on the padded grid,
 //! one pruned FFT per output image and w plane (see `plane_fft`), and the grid correction.
 //!
-//! Work layout: every (row, channel) sample is placed once per call (fractional cell, w-plane
-//! coordinate, first plane and plane count, and the grid tile its footprint starts in), and the
-//! samples are sorted by tile (see `tiles`). For each w plane the samples touching it are spread
+//! Work layout: every (row, channel) sample is placed once per call (mirrored into the plan's
+//! half of uvw space when the plan folds, see [`GridPlan`]; fractional cell, w-plane coordinate,
+//! first plane and plane count, and the grid tile its footprint starts in), and the samples are
+//! sorted by tile (a parallel counting sort, see `tiles`). For each w plane the samples touching it are spread
 //! band by band and tile by tile through a small cache-resident buffer; bands that could write
 //! the same grid rows never run at the same time, so every grid cell is summed in one fixed order
 //! and the images are identical bit for bit with any number of threads. Degridding reads each

@@ -8,8 +8,11 @@
 //! grid (degridding) the image fills only nx columns before the transform along y (fewer when
 //! it is a CLEAN model: its all-zero columns are skipped), and only the rows the samples will
 //! read need a transform along x. Both directions then cost about
-//! (f + 1/2)/2 of a full 2-D FFT (f the fraction of rows with data) and need no transposes of
-//! the whole grid: columns are gathered in small blocks.
+//! (f + 1/2)/2 of a full 2-D FFT (f the fraction of rows with data; about 1/2 when the plan
+//! folds its samples onto v ≥ 0) and need no transposes of the whole grid: columns are gathered
+//! in small blocks. When the factor applied per pixel is real (no w planes), the image columns
+//! are real too, and two of them share one column transform (Hermitian packing, see
+//! `pack_real_parts` and `unpack_real_pair`), which halves the column pass.
 //!
 //! Every transform of a row or column is done whole by one task, so the results do not depend
 //! on the thread count. The reference is the unpruned [`crate::fft2::Fft2`] followed by the

@@ -16,7 +16,7 @@
 //! their own slots of a per-sample accumulator.
 #[cfg(target_arch = "x86_64")]
 use super::tile_rows::AvxRows;
-use super::tile_rows::{prefetch, ScalarRows, Simd, TileRows};
+use super::tile_rows::{prefetch, prefetch_address, ScalarRows, Simd, TileRows};
 use super::{ceil_i64, Samples};
 use crate::kernel_poly::MAX_TAPS;
 use crate::operator::GridOutput;
@@ -198,6 +198,12 @@ unsafe impl<T: Send> Sync for Disjoint<'_, T> {}
 impl<'a, T> Disjoint<'a, T> {
     pub(super) fn new(buffer: &'a mut [T]) -> Self {
         Self { ptr: buffer.as_mut_ptr(), len: buffer.len(), _buffer: std::marker::PhantomData }
+    }
+
+    /// Hint the CPU to fetch position `at` (no access; any `at`).
+    #[inline(always)]
+    pub(super) fn prefetch(&self, at: usize) {
+        prefetch_address(self.ptr.wrapping_add(at));
     }
 
     /// The value at `at` (checked against the length).
@@ -639,6 +645,13 @@ impl Job<'_> {
             for bl in blocks {
                 for k in bl.start..bl.end {
                     self.prefetch(k, None);
+                    // The output place of a sample a few ahead (its read-modify-write would
+                    // otherwise wait for a cache line at a scattered address).
+                    if let (Destination::Samples(np), Some(&key)) =
+                        (dest, self.layout.order.get(k + AHEAD))
+                    {
+                        out.prefetch(self.samples.index(key) * np);
+                    }
                     if !self.footprint::<R>(self.layout.order[k], tx, &mut f) {
                         continue;
                     }
