@@ -342,7 +342,10 @@ impl ImagingOperator for GridPlan {
             .expect("sized to the shape");
         if !images.is_empty() {
             let samples = Samples::new(self, vis);
-            let layout = self.layout(&samples, n_rows, |_| true);
+            let mut layout = self.layout(&samples, n_rows, |_| true);
+            if self.n_w_planes() > 1 {
+                self.measure_blocks(&samples, &mut layout);
+            }
             let images_t: Vec<Vec<f64>> = images
                 .iter()
                 .map(|im| {

@@ -112,6 +112,9 @@ struct Block {
     first: u32,
     start: usize,
     end: usize,
+    /// The rectangle of the tile buffer its samples' footprints cover, once measured (see
+    /// [`GridPlan::measure_blocks`]).
+    rect: Option<Rect>,
 }
 
 /// The samples sorted by tile, with the index structures of the tiled passes.
@@ -258,14 +261,14 @@ impl Layout {
                     let (a, z) = (tile_starts[t], tile_starts[t + 1]);
                     let Some(firsts) = &firsts else {
                         if a < z {
-                            blocks.push(Block { tx, first: 0, start: a, end: z });
+                            blocks.push(Block { tx, first: 0, start: a, end: z, rect: None });
                         }
                         continue;
                     };
                     for (k, &first) in (a..z).zip(&firsts[a..z]) {
                         match blocks.last_mut() {
                             Some(b) if b.end == k && k > a && b.first == first => b.end = k + 1,
-                            _ => blocks.push(Block { tx, first, start: k, end: k + 1 }),
+                            _ => blocks.push(Block { tx, first, start: k, end: k + 1, rect: None }),
                         }
                     }
                 }
@@ -329,6 +332,10 @@ struct Rect {
 }
 
 impl Rect {
+    fn union(a: Rect, b: Rect) -> Rect {
+        Rect { c0: a.c0.min(b.c0), c1: a.c1.max(b.c1), r0: a.r0.min(b.r0), r1: a.r1.max(b.r1) }
+    }
+
     fn grow(rect: &mut Option<Rect>, dx: usize, dy: usize, w: usize) {
         let r = rect.get_or_insert(Rect { c0: dx, c1: dx + w, r0: dy, r1: dy + w });
         r.c0 = r.c0.min(dx);
@@ -473,6 +480,11 @@ impl Job<'_> {
             let rows = map.starts[self.band + 1] - map.starts[self.band];
             return Some(Rect { c0: 0, c1: TILE - 1 + w, r0: 0, r1: rows - 1 + w });
         };
+        if blocks.iter().all(|b| b.rect.is_some()) {
+            // Measured blocks: the union of their rectangles (a superset of the footprints on
+            // this plane when some samples of a block stop short of it).
+            return blocks.iter().filter_map(|b| b.rect).reduce(Rect::union);
+        }
         let mut rect = None;
         for bl in blocks {
             for &key in &self.layout.order[bl.start..bl.end] {
@@ -720,6 +732,33 @@ fn band_rows<'a>(
 }
 
 impl GridPlan {
+    /// Measures every block's footprint rectangle (see `Block::rect`) once, so that passes over
+    /// many planes need not look at every sample again per plane to size a tile's window.
+    pub(super) fn measure_blocks(&self, samples: &Samples, layout: &mut Layout) {
+        let w = self.kernel.support();
+        let half = 0.5 * w as f64;
+        let (map, order) = (&layout.map, &layout.order);
+        let mut rest: &mut [Block] = &mut layout.blocks;
+        let mut bands = Vec::with_capacity(map.bands());
+        for b in 0..map.bands() {
+            let (band, tail) = rest.split_at_mut(layout.band_blocks[b + 1] - layout.band_blocks[b]);
+            bands.push((b, band));
+            rest = tail;
+        }
+        bands.into_par_iter().with_max_len(1).for_each(|(b, blocks)| {
+            for bl in blocks {
+                let mut rect = None;
+                for &key in &order[bl.start..bl.end] {
+                    let (_, sx, sy, _, _) = samples.at(self, key);
+                    let dx = wrap(ceil_i64(sx - half), map.pad_nx) - bl.tx as usize * TILE;
+                    let dy = wrap(ceil_i64(sy - half), map.pad_ny) - map.starts[b];
+                    Rect::grow(&mut rect, dx, dy, w);
+                }
+                bl.rect = rect;
+            }
+        });
+    }
+
     /// Spread every sample of `layout` that touches plane `plane` (None: the only plane) into
     /// `grids` (one per output of `values`).
     pub(super) fn spread_plane(
