@@ -335,7 +335,6 @@ impl ImagingOperator for GridPlan {
     ) -> Result<Array3<Complex64>, ImagingError> {
         check_degrid_args(vis, self.geometry, images, channel_factors)?;
         self.check_w(vis)?;
-        let nx = self.geometry.nx;
         let (px, py) = (self.pad_nx, self.pad_ny);
         let (n_rows, nc, np) = (vis.n_rows(), vis.n_channels(), vis.n_correlations());
         let mut out = Array3::from_shape_vec((n_rows, nc, np), fresh_grid(n_rows * nc * np))
@@ -355,9 +354,8 @@ impl ImagingOperator for GridPlan {
                 .collect();
             let w = self.kernel.support();
             // A plane's transform writes every grid row its samples read, so stale values
-            // elsewhere are never seen; `columns` is written before it is read.
+            // elsewhere are never seen.
             let mut grids = self.pool.take_any(images.len(), px * py);
-            let mut columns = self.pool.take_any(1, nx * py).pop().expect("one buffer");
             let mut rows = vec![false; py];
             let all = out.as_slice_mut().expect("fresh array is contiguous");
             // One plane: each sample's value goes straight to its place. Several: each sample
@@ -382,7 +380,7 @@ impl ImagingOperator for GridPlan {
                 layout.mark_rows(plane, w, &mut rows);
                 let screen = screens.plane(p);
                 for (image_t, grid) in images_t.iter().zip(grids.iter_mut()) {
-                    self.plane_from_image(image_t, screen, &rows, &mut columns, grid);
+                    self.plane_from_image(image_t, screen, &rows, grid);
                 }
                 self.interpolate_plane(
                     &samples,
@@ -394,7 +392,6 @@ impl ImagingOperator for GridPlan {
                     dest,
                 );
             }
-            grids.push(columns);
             self.pool.give_back(grids, false);
             if sorted {
                 // The same value for every correlation of the sample.

@@ -44,6 +44,7 @@
 mod aproj;
 mod direct;
 mod dirty;
+mod disjoint;
 mod error;
 #[cfg(test)]
 mod fft2;

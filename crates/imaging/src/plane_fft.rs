@@ -17,6 +17,7 @@
 //! Every transform of a row or column is done whole by one task, so the results do not depend
 //! on the thread count. The reference is the unpruned [`crate::fft2::Fft2`] followed by the
 //! pixel extraction (tests below).
+use crate::disjoint::Disjoint;
 use crate::plan::GridPlan;
 use num_complex::Complex64;
 use rayon::prelude::*;
@@ -152,29 +153,32 @@ impl GridPlan {
 
     /// Image → grid for one plane: the forward transform of `image_t · screen_t` (transposed
     /// images `[ix][iy]`) placed on the padded grid, computed only for the grid rows marked in
-    /// `rows`; the other rows of `grid` are left as they were. `columns` is scratch of
-    /// nx · pad_ny values.
+    /// `rows`; the other rows of `grid` are left as they were.
+    ///
+    /// Each task transforms a few image columns in its own buffer and writes the marked rows of
+    /// them straight into their grid columns (no grid-sized scratch, whose pages would have to
+    /// be mapped and cleared); the rows are then transformed in place.
     pub(crate) fn plane_from_image(
         &self,
         image_t: &[f64],
         screen_t: Screen<'_>,
         rows: &[bool],
-        columns: &mut [Complex64],
         grid: &mut [Complex64],
     ) {
         let (px, py) = (self.pad_nx, self.pad_ny);
         let (nx, ny) = (self.geometry.nx, self.geometry.ny);
-        debug_assert_eq!(columns.len(), nx * py);
+        debug_assert_eq!(grid.len(), px * py);
         let fft_y = &self.fft_y_forward;
         let h = ny / 2;
-        columns
-            .par_chunks_mut(COLUMNS * py)
-            .zip(image_t.par_chunks(COLUMNS * ny))
-            .enumerate()
-            .for_each_init(
-                || vec![ZERO; fft_y.get_inplace_scratch_len()],
-                |scratch, (block, (buf, img))| {
-                    let n_cols = img.len() / ny;
+        let marked: Vec<usize> = (0..py).filter(|&y| rows[y]).collect();
+        let gx: Vec<usize> = (0..nx).map(|ix| self.grid_x(ix)).collect();
+        let cells = Disjoint::new(grid);
+        image_t.par_chunks(COLUMNS * ny).enumerate().for_each_init(
+            || (vec![ZERO; COLUMNS * py], vec![ZERO; fft_y.get_inplace_scratch_len()]),
+            |(buf, scratch), (block, img)| {
+                let n_cols = img.len() / ny;
+                let buf = &mut buf[..n_cols * py];
+                let mut transform = || {
                     if let Screen::Real(s) = screen_t {
                         // Real columns: two share one transform (see `unpack_real_pair`).
                         for a in (0..n_cols).step_by(2) {
@@ -245,10 +249,19 @@ impl GridPlan {
                         }
                         fft_y.process_with_scratch(col, scratch);
                     }
-                },
-            );
-        let columns = &*columns;
-        let gx: Vec<usize> = (0..nx).map(|ix| self.grid_x(ix)).collect();
+                };
+                transform();
+                let gx = &gx[block * COLUMNS..block * COLUMNS + n_cols];
+                for &y in &marked {
+                    for (c, &x) in gx.iter().enumerate() {
+                        // SAFETY: grid column x belongs to image column block · COLUMNS + c
+                        // alone (the map from image columns to grid columns is one to one),
+                        // and this task alone handles that image column.
+                        unsafe { *cells.slot(y * px + x) = buf[c * py + y] };
+                    }
+                }
+            },
+        );
         let fft_x = &self.fft_x_forward;
         grid.par_chunks_mut(ROWS * px).enumerate().with_max_len(1).for_each_init(
             || vec![ZERO; fft_x.get_inplace_scratch_len()],
@@ -263,18 +276,6 @@ impl GridPlan {
                 for (r, line) in lines.chunks_mut(px).enumerate() {
                     if rows[y0 + r] {
                         line[nx - nx / 2..px - nx / 2].iter_mut().for_each(|v| *v = ZERO);
-                    }
-                }
-                for (ix, &x) in gx.iter().enumerate() {
-                    let col = &columns[ix * py + y0..ix * py + y0 + n_rows];
-                    for (r, &v) in col.iter().enumerate() {
-                        if rows[y0 + r] {
-                            lines[r * px + x] = v;
-                        }
-                    }
-                }
-                for (r, line) in lines.chunks_mut(px).enumerate() {
-                    if rows[y0 + r] {
                         fft_x.process_with_scratch(line, scratch);
                     }
                 }
@@ -513,13 +514,14 @@ mod tests {
                 }
             }
             // Image → grid: a dense image, and one zero in all but two columns (as a model of
-            // a few CLEAN components is; its zero columns' transforms are skipped). The same
-            // `columns` scratch serves both, so stale values would show in the second.
+            // a few CLEAN components is; its zero columns' transforms are skipped).
             let dense: Vec<f64> = (0..nx * ny).map(|k| (0.7 * k as f64).sin()).collect();
             let sparse: Vec<f64> = (0..nx * ny)
                 .map(|k| if k % nx == 1 || k % nx == nx - 2 { (0.3 * k as f64).cos() } else { 0.0 })
                 .collect();
-            let mut columns = vec![Complex64::new(0.0, 0.0); nx * py];
+            // One grid for both, so values the dense image left in it would show in the second.
+            let sentinel = Complex64::new(7.0, -7.0);
+            let mut grid = vec![sentinel; px * py];
             for image in [dense, sparse] {
                 let mut full = vec![Complex64::new(0.0, 0.0); px * py];
                 for iy in 0..ny {
@@ -528,16 +530,8 @@ mod tests {
                     }
                 }
                 Fft2::new(px, py, FftDirection::Forward).process(&mut full, &mut scratch);
-                let sentinel = Complex64::new(7.0, -7.0);
-                let mut grid = vec![sentinel; px * py];
                 let image_t = p.transposed(&image);
-                p.plane_from_image(
-                    &image_t,
-                    Screen::Complex(&screen_t),
-                    &rows,
-                    &mut columns,
-                    &mut grid,
-                );
+                p.plane_from_image(&image_t, Screen::Complex(&screen_t), &rows, &mut grid);
                 for y in 0..py {
                     for x in 0..px {
                         let (got, k) = (grid[y * px + x], y * px + x);
@@ -593,10 +587,9 @@ mod tests {
                 let mut grid = grid0.clone();
                 let mut out = vec![0.25; nx * ny];
                 p.add_plane_to_image(&mut grid, &rows, screen, &mut out, false);
-                // Stale values in the scratch must not leak into the result.
-                let mut columns = vec![Complex64::new(3.0, -1.0); nx * py];
-                let mut back = vec![Complex64::new(0.0, 0.0); px * py];
-                p.plane_from_image(&image_t, screen, &rows, &mut columns, &mut back);
+                // Stale values in the grid must not leak into the result.
+                let mut back = vec![Complex64::new(3.0, -1.0); px * py];
+                p.plane_from_image(&image_t, screen, &rows, &mut back);
                 outputs.push((out, back));
             }
             let (a, b) = (&outputs[0], &outputs[1]);

@@ -489,7 +489,6 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
             });
         }
         let (px, py) = (self.plan.pad_nx, self.plan.pad_ny);
-        let nx = self.plan.geometry.nx;
         // Per channel c and plane q, the grid rows its samples read: an image only needs the
         // planes and rows of the channels it has a share in (per-channel prediction: one).
         // Indexed [plane][channel].
@@ -505,8 +504,6 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
         let shares: Vec<Vec<usize>> =
             channel_factors.iter().map(|f| (0..nc).filter(|&c| f[c] != 0.0).collect()).collect();
         let mut image_rows = vec![false; py];
-        // Written before it is read, like the ring below.
-        let mut columns = self.pool.take_any(1, nx * py).pop().expect("one buffer");
         let hands: Vec<usize> = vis.correlations.iter().map(|c| hand(c.receptor())).collect();
         let simd = RowSimd::detect();
         let window = self.window();
@@ -564,13 +561,7 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
                             continue;
                         }
                         let grid = &mut ring[slot * n_img + t];
-                        self.plan.plane_from_image(
-                            image_t,
-                            screen,
-                            &image_rows,
-                            &mut columns,
-                            grid,
-                        );
+                        self.plan.plane_from_image(image_t, screen, &image_rows, grid);
                     }
                 }
                 let ring = &ring;
@@ -650,7 +641,6 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
             }
             self.pool.give_back(ring, false);
         }
-        self.pool.give_back(vec![columns], false);
         Ok(Array3::from_shape_vec((nr, nc, np), out).expect("sized above"))
     }
 }

@@ -296,19 +296,11 @@ mod avx {
 /// scattered addresses; fetching a few samples ahead hides most of that latency.
 #[inline(always)]
 pub(super) fn prefetch<T>(x: &T) {
-    prefetch_address(x as *const T);
-}
-
-/// [`prefetch`] by address, for a place that another task may be writing (no reference to it
-/// may be formed); the address need not be valid.
-#[inline(always)]
-pub(super) fn prefetch_address<T>(x: *const T) {
     #[cfg(target_arch = "x86_64")]
-    // SAFETY: _mm_prefetch (SSE, always present on x86-64) does not access the memory, and
-    // never faults, whatever the address.
+    // SAFETY: _mm_prefetch (SSE, always present on x86-64) does not access the memory.
     unsafe {
         use std::arch::x86_64::{_mm_prefetch, _MM_HINT_T0};
-        _mm_prefetch::<_MM_HINT_T0>(x.cast());
+        _mm_prefetch::<_MM_HINT_T0>((x as *const T).cast());
     }
     #[cfg(not(target_arch = "x86_64"))]
     let _ = x;

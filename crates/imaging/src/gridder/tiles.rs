@@ -16,8 +16,9 @@
 //! their own slots of a per-sample accumulator.
 #[cfg(target_arch = "x86_64")]
 use super::tile_rows::AvxRows;
-use super::tile_rows::{prefetch, prefetch_address, ScalarRows, Simd, TileRows};
+use super::tile_rows::{prefetch, ScalarRows, Simd, TileRows};
 use super::{ceil_i64, Samples};
+use crate::disjoint::Disjoint;
 use crate::kernel_poly::MAX_TAPS;
 use crate::operator::GridOutput;
 use crate::plan::GridPlan;
@@ -184,43 +185,6 @@ pub(super) fn sort_by_tile(
         }
     });
     (order, tile_starts)
-}
-
-/// A buffer that several tasks write at once, each only at positions no other task touches
-/// during the parallel loop (the callers below say why, case by case).
-pub(super) struct Disjoint<'a, T> {
-    ptr: *mut T,
-    len: usize,
-    _buffer: std::marker::PhantomData<&'a mut [T]>,
-}
-
-// SAFETY: handing the pointer to other threads is sound because every access goes through
-// `Disjoint::slot`, whose callers guarantee that no two threads touch one position.
-unsafe impl<T: Send> Sync for Disjoint<'_, T> {}
-
-impl<'a, T> Disjoint<'a, T> {
-    pub(super) fn new(buffer: &'a mut [T]) -> Self {
-        Self { ptr: buffer.as_mut_ptr(), len: buffer.len(), _buffer: std::marker::PhantomData }
-    }
-
-    /// Hint the CPU to fetch position `at` (no access; any `at`).
-    #[inline(always)]
-    pub(super) fn prefetch(&self, at: usize) {
-        prefetch_address(self.ptr.wrapping_add(at));
-    }
-
-    /// The value at `at` (checked against the length).
-    ///
-    /// # Safety
-    /// While the returned reference lives, no other thread may access position `at`.
-    #[inline(always)]
-    #[allow(clippy::mut_from_ref)]
-    pub(super) unsafe fn slot(&self, at: usize) -> &mut T {
-        assert!(at < self.len, "position {at} outside a buffer of {}", self.len);
-        // SAFETY: `at` is inside the buffer, which the borrow `'a` keeps alive and unaliased
-        // outside this type; exclusive access to the position is the caller's promise.
-        unsafe { &mut *self.ptr.add(at) }
-    }
 }
 
 impl Layout {
