@@ -184,12 +184,18 @@ impl GridPlan {
             None
         };
 
-        let cx: Vec<f64> = (0..nx)
-            .map(|ix| kernel.fourier((ix as f64 - (nx / 2) as f64) / pad_nx as f64))
-            .collect();
-        let cy: Vec<f64> = (0..ny)
-            .map(|iy| kernel.fourier((iy as f64 - (ny / 2) as f64) / pad_ny as f64))
-            .collect();
+        // ψ̂ along one axis, per pixel: ψ̂((i − n/2) / pad). ψ̂ is even (a sum of cosines, and
+        // negating the argument negates it exactly), so it is evaluated once per distance from
+        // the centre pixel, in parallel (each value is a quadrature of 4W + 40 cosines).
+        let along = |n: usize, pad: usize| -> Vec<f64> {
+            let by_distance: Vec<f64> = (0..=n / 2)
+                .into_par_iter()
+                .map(|d| kernel.fourier(d as f64 / pad as f64))
+                .collect();
+            (0..n).map(|i| by_distance[i.abs_diff(n / 2)]).collect()
+        };
+        let cx = along(nx, pad_nx);
+        let cy = if (ny, pad_ny) == (nx, pad_nx) { cx.clone() } else { along(ny, pad_ny) };
         // ψ̂ along w depends on a pixel only through r² = l² + m², and with l and m exact multiples
         // of the cell, r² is the same (bit for bit) for the pixels (±a, ±b) and (±b, ±a) around
         // the centre: evaluate it once per offset pair a ≤ b (an eighth of the pixels).
@@ -344,6 +350,28 @@ mod tests {
                 let want = 1.0 / (cx * cy * k.fourier(dw * p.n_minus_1[[iy, ix]]));
                 let got = p.inverse_correction[[iy, ix]];
                 assert!((got - want).abs() <= 1e-14 * want.abs(), "{ix} {iy}: {got} {want}");
+            }
+        }
+    }
+
+    #[test]
+    fn plain_correction_is_the_kernel_transform_at_every_pixel() {
+        // Definition: 1 / (ψ̂(j_x/pad_nx) ψ̂(j_y/pad_ny)) per pixel, j = index − n/2, evaluated
+        // here pixel by pixel; the plan evaluates ψ̂ once per distance from the centre, which
+        // is the same value to the bit (ψ̂ is a sum of cosines and cos is even), so the
+        // comparison is exact. Square and non-square images.
+        for (nx, ny) in [(24, 18), (16, 16), (10, 30)] {
+            let g = ImageGeometry::new(nx, ny, 0.01);
+            let params = GridderParams { w_term: WTerm::Ignore, ..GridderParams::default() };
+            let p = GridPlan::new(g, &params, WRange::new(-50.0, 80.0).unwrap()).unwrap();
+            let k = p.kernel();
+            let (px, py) = p.padded_size();
+            for iy in 0..ny {
+                for ix in 0..nx {
+                    let cx = k.fourier((ix as f64 - (nx / 2) as f64) / px as f64);
+                    let cy = k.fourier((iy as f64 - (ny / 2) as f64) / py as f64);
+                    assert_eq!(p.inverse_correction[[iy, ix]], 1.0 / (cx * cy), "({ix},{iy})");
+                }
             }
         }
     }
