@@ -298,7 +298,10 @@ impl ImagingOperator for GridPlan {
         let mut rows = vec![false; py];
         let mut images_t = vec![vec![0.0; nx * ny]; n_out];
         let correction = self.inverse_correction.as_slice().expect("plan arrays are contiguous");
-        let mut screens = Screens::new(self, correction, 1.0);
+        let mut screens = match self.planes {
+            Some(_) => Screens::new(self, correction, 1.0),
+            None => Screens::plain(self),
+        };
         let mut fresh = true;
         for p in 0..self.n_w_planes() {
             if !layout.has_plane(p, w) {
@@ -370,7 +373,10 @@ impl ImagingOperator for GridPlan {
             };
             let correction =
                 self.inverse_correction.as_slice().expect("plan arrays are contiguous");
-            let mut screens = Screens::new(self, correction, -1.0);
+            let mut screens = match self.planes {
+                Some(_) => Screens::new(self, correction, -1.0),
+                None => Screens::plain(self),
+            };
             for p in 0..self.n_w_planes() {
                 if !layout.has_plane(p, w) {
                     continue;

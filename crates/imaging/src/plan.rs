@@ -81,6 +81,10 @@ pub struct GridPlan {
     pub(crate) fft_y_forward: FftPlan,
     /// 1 / (ψ̂_x ψ̂_y ψ̂_w) per pixel `[iy][ix]`; zero beyond the horizon.
     pub(crate) inverse_correction: Array2<f64>,
+    /// 1 / ψ̂_x per image column and 1 / ψ̂_y per image row: the correction without w planes
+    /// is their product (to rounding), which the gridder uses instead of the array above.
+    pub(crate) inverse_cx: Vec<f64>,
+    pub(crate) inverse_cy: Vec<f64>,
     /// n − 1 per pixel `[iy][ix]` (zero beyond the horizon or when w is ignored).
     pub(crate) n_minus_1: Array2<f64>,
     /// None when w is ignored (one plane at w = 0, no screen).
@@ -251,6 +255,8 @@ impl GridPlan {
             fft_y_inverse: FftPlan(planner.plan_fft_inverse(pad_ny)),
             fft_x_forward: FftPlan(planner.plan_fft_forward(pad_nx)),
             fft_y_forward: FftPlan(planner.plan_fft_forward(pad_ny)),
+            inverse_cx: cx.iter().map(|c| 1.0 / c).collect(),
+            inverse_cy: cy.iter().map(|c| 1.0 / c).collect(),
             inverse_correction,
             n_minus_1,
             planes,

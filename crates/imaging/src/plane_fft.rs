@@ -93,8 +93,11 @@ impl GridPlan {
         let grid_ref = &*grid;
         let (touched, untouched): (Vec<usize>, Vec<usize>) = (0..py).partition(|&y| rows[y]);
         image_t.par_chunks_mut(COLUMNS * ny).enumerate().for_each_init(
-            || (vec![ZERO; COLUMNS * py], vec![ZERO; fft_y.get_inplace_scratch_len()]),
-            |(buf, scratch), (block, out)| {
+            || {
+                let scratch = vec![ZERO; fft_y.get_inplace_scratch_len()];
+                (vec![ZERO; COLUMNS * py], scratch, vec![0.0; ny])
+            },
+            |(buf, scratch, factors), (block, out)| {
                 let ix0 = block * COLUMNS;
                 let n_cols = out.len() / ny;
                 let gx: Vec<usize> = (ix0..ix0 + n_cols).map(|ix| self.grid_x(ix)).collect();
@@ -115,7 +118,7 @@ impl GridPlan {
                 // iy < ny/2 sits at the top of a column (negative index), the rest at 0...
                 let h = ny / 2;
                 match screen_t {
-                    Screen::Real(s) => {
+                    Screen::Real(_) | Screen::Separable { .. } => {
                         // Only Re of each column's transform is needed: two columns share one
                         // transform (see `pack_real_parts`), slot j holding columns 2j, 2j + 1.
                         let n_pairs = n_cols.div_ceil(2);
@@ -127,7 +130,8 @@ impl GridPlan {
                         for c in 0..n_cols {
                             let col = &buf[(c / 2) * py..(c / 2 + 1) * py];
                             let o = &mut out[c * ny..(c + 1) * ny];
-                            let s = &s[(ix0 + c) * ny..(ix0 + c + 1) * ny];
+                            screen_t.real_column(ix0 + c, factors);
+                            let s = &factors[..];
                             let g = col[py - h..].iter().chain(&col[..ny - h]);
                             if c % 2 == 0 {
                                 store(o, s.iter().zip(g).map(|(s, g)| g.re * s), overwrite);
@@ -180,16 +184,19 @@ impl GridPlan {
         let gx: Vec<usize> = (0..nx).map(|ix| self.grid_x(ix)).collect();
         let cells = Disjoint::new(grid);
         image_t.par_chunks(COLUMNS * ny).enumerate().for_each_init(
-            || (vec![ZERO; COLUMNS * py], vec![ZERO; fft_y.get_inplace_scratch_len()]),
-            |(buf, scratch), (block, img)| {
+            || {
+                let scratch = vec![ZERO; fft_y.get_inplace_scratch_len()];
+                (vec![ZERO; COLUMNS * py], scratch, vec![0.0; 2 * ny])
+            },
+            |(buf, scratch, factors), (block, img)| {
                 let n_cols = img.len() / ny;
                 let buf = &mut buf[..n_cols * py];
                 let mut transform = || {
-                    if let Screen::Real(s) = screen_t {
+                    if screen_t.is_real() {
                         // Real columns: two share one transform (see `unpack_real_pair`).
+                        let (fa, fb) = factors.split_at_mut(ny);
                         for a in (0..n_cols).step_by(2) {
                             let b = a + 1;
-                            let pixels = |c: usize| (block * COLUMNS + c) * ny..;
                             let zero =
                                 |c: usize| img[c * ny..(c + 1) * ny].iter().all(|&v| v == 0.0);
                             if b == n_cols || (zero(a) && zero(b)) {
@@ -205,7 +212,8 @@ impl GridPlan {
                                     col[ny - h..py - h].iter_mut().for_each(|v| *v = ZERO);
                                     let (bottom, top) = col.split_at_mut(py - h);
                                     let g = top.iter_mut().chain(&mut bottom[..ny - h]).zip(im);
-                                    for ((g, &v), &s) in g.zip(&s[pixels(c)]) {
+                                    screen_t.real_column(block * COLUMNS + c, fa);
+                                    for ((g, &v), &s) in g.zip(&*fa) {
                                         *g = Complex64::new(s * v, 0.0);
                                     }
                                     fft_y.process_with_scratch(col, scratch);
@@ -216,8 +224,9 @@ impl GridPlan {
                             let col = &mut buf[a * py..(a + 1) * py];
                             col[ny - h..py - h].iter_mut().for_each(|v| *v = ZERO);
                             let (bottom, top) = col.split_at_mut(py - h);
-                            let pairs =
-                                ia.iter().zip(ib).zip(s[pixels(a)].iter().zip(&s[pixels(b)]));
+                            screen_t.real_column(block * COLUMNS + a, fa);
+                            screen_t.real_column(block * COLUMNS + b, fb);
+                            let pairs = ia.iter().zip(ib).zip(fa.iter().zip(&*fb));
                             for (g, ((&va, &vb), (&sa, &sb))) in
                                 top.iter_mut().chain(&mut bottom[..ny - h]).zip(pairs)
                             {
@@ -241,16 +250,9 @@ impl GridPlan {
                         col[ny - h..py - h].iter_mut().for_each(|v| *v = ZERO);
                         let (bottom, top) = col.split_at_mut(py - h);
                         let g = top.iter_mut().chain(&mut bottom[..ny - h]).zip(im);
-                        match screen_t {
-                            Screen::Real(s) => {
-                                for ((g, &v), &s) in g.zip(&s[pixels]) {
-                                    *g = Complex64::new(s * v, 0.0);
-                                }
-                            }
-                            Screen::Complex(s) => {
-                                for ((g, &v), &s) in g.zip(&s[pixels]) {
-                                    *g = s * v;
-                                }
+                        if let Screen::Complex(s) = screen_t {
+                            for ((g, &v), &s) in g.zip(&s[pixels]) {
+                                *g = s * v;
                             }
                         }
                         fft_y.process_with_scratch(col, scratch);
@@ -389,8 +391,32 @@ fn store(out: &mut [f64], values: impl Iterator<Item = f64>, overwrite: bool) {
 pub(crate) enum Screen<'a> {
     /// Real (the grid correction alone, when w is not stacked).
     Real(&'a [f64]),
+    /// Real and separable: `x[ix] · y[iy]` (the plain plan's own correction, with no image-sized
+    /// array to build).
+    Separable { x: &'a [f64], y: &'a [f64] },
     /// Complex (the correction times a w-plane's phase, or any other complex factor).
     Complex(&'a [Complex64]),
+}
+
+impl Screen<'_> {
+    /// Whether the factors are real.
+    fn is_real(&self) -> bool {
+        !matches!(self, Screen::Complex(_))
+    }
+
+    /// The (real) factors of image column `ix` into `out` (ny values); nothing for a complex
+    /// screen.
+    #[inline]
+    fn real_column(&self, ix: usize, out: &mut [f64]) {
+        let ny = out.len();
+        match *self {
+            Screen::Real(s) => out.copy_from_slice(&s[ix * ny..(ix + 1) * ny]),
+            Screen::Separable { x, y } => {
+                out.iter_mut().zip(y).for_each(|(o, &y)| *o = x[ix] * y);
+            }
+            Screen::Complex(_) => {}
+        }
+    }
 }
 
 /// The per-plane factors c(x) · exp(sign · 2πi w_p (n − 1)) of a plan, plane by plane in
@@ -409,6 +435,8 @@ pub(crate) struct Screens {
     at: Option<usize>,
     /// Whether w is stacked (else the screen is the real correction for the only plane).
     stacked: bool,
+    /// The separable correction (per column, per row) of [`Screens::plain`].
+    separable: Option<(Vec<f64>, Vec<f64>)>,
 }
 
 impl Screens {
@@ -429,12 +457,33 @@ impl Screens {
             None => (Vec::new(), Vec::new(), 0.0, 0.0, false),
         };
         let current = if stacked { vec![ZERO; correction_t.len()] } else { Vec::new() };
-        Self { correction_t, x_t, step, current, sign, w0, dw, at: None, stacked }
+        Self { correction_t, x_t, step, current, sign, w0, dw, at: None, stacked, separable: None }
+    }
+
+    /// The screen of a plan without w planes: its own grid correction, kept separable
+    /// (1/ψ̂ along x times 1/ψ̂ along y), so that no image-sized array is built per call.
+    pub(crate) fn plain(plan: &GridPlan) -> Self {
+        debug_assert!(plan.planes.is_none());
+        Self {
+            correction_t: Vec::new(),
+            x_t: Vec::new(),
+            step: Vec::new(),
+            current: Vec::new(),
+            sign: 1.0,
+            w0: 0.0,
+            dw: 0.0,
+            at: None,
+            stacked: false,
+            separable: Some((plan.inverse_cx.clone(), plan.inverse_cy.clone())),
+        }
     }
 
     /// The screen of plane `p` (planes must be asked for in increasing order); the real
     /// correction when w is not stacked.
     pub(crate) fn plane(&mut self, p: usize) -> Screen<'_> {
+        if let Some((x, y)) = &self.separable {
+            return Screen::Separable { x, y };
+        }
         if !self.stacked {
             return Screen::Real(&self.correction_t);
         }
@@ -588,7 +637,10 @@ mod tests {
         let p = plan(14, 10, WTerm::Ignore);
         let (nx, ny, px, py) = (14, 10, p.pad_nx, p.pad_ny);
         let rows: Vec<bool> = (0..py).map(|y| y % 4 != 2).collect();
-        let real: Vec<f64> = (0..nx * ny).map(|k| 1.0 + 0.3 * (0.9 * k as f64).sin()).collect();
+        // A separable factor x[ix] · y[iy] (as the plain plan's correction is), given three ways.
+        let x: Vec<f64> = (0..nx).map(|i| 1.0 + 0.3 * (0.9 * i as f64).sin()).collect();
+        let y: Vec<f64> = (0..ny).map(|i| 0.8 + 0.2 * (1.3 * i as f64).cos()).collect();
+        let real: Vec<f64> = (0..nx * ny).map(|k| x[k / ny] * y[k % ny]).collect();
         let complex: Vec<Complex64> = real.iter().map(|&r| Complex64::new(r, 0.0)).collect();
         let grid0: Vec<Complex64> = (0..px * py)
             .map(|k| if rows[k / px] { value(k, 1.7) } else { Complex64::new(0.0, 0.0) })
@@ -601,7 +653,8 @@ mod tests {
             .collect();
         for image_t in [dense, sparse] {
             let mut outputs = Vec::new();
-            for screen in [Screen::Real(&real), Screen::Complex(&complex)] {
+            let separable = Screen::Separable { x: &x, y: &y };
+            for screen in [Screen::Real(&real), separable, Screen::Complex(&complex)] {
                 let mut grid = grid0.clone();
                 let mut out = vec![0.25; nx * ny];
                 p.add_plane_to_image(&mut grid, &rows, screen, &mut out, false);
@@ -610,9 +663,11 @@ mod tests {
                 p.plane_from_image(&image_t, screen, &rows, &mut back);
                 outputs.push((out, back));
             }
-            let (a, b) = (&outputs[0], &outputs[1]);
-            assert!(a.0.iter().zip(&b.0).all(|(x, y)| (x - y).abs() < 1e-12));
-            assert!(a.1.iter().zip(&b.1).all(|(x, y)| (x - y).norm() < 1e-12));
+            let a = &outputs[0];
+            for b in &outputs[1..] {
+                assert!(a.0.iter().zip(&b.0).all(|(x, y)| (x - y).abs() < 1e-12));
+                assert!(a.1.iter().zip(&b.1).all(|(x, y)| (x - y).norm() < 1e-12));
+            }
             assert!(a.0.iter().any(|&x| (x - 0.25).abs() > 0.1), "not a comparison of zeros");
             assert!(a.1.iter().any(|x| x.norm() > 0.1), "not a comparison of zeros");
         }
