@@ -18,14 +18,16 @@ use crate::plan::GridPlan;
 use crate::plane_fft::Screens;
 use beamfloor_core::{ImageGeometry, SPEED_OF_LIGHT_M_PER_S};
 use beamfloor_predict::VisSet;
+#[cfg(test)]
+use layout::sort_by_tile;
+use layout::{Layout, TileMap, NO_TILE};
 use ndarray::{Array2, Array3, ArrayView3};
 use num_complex::Complex64;
 use rayon::prelude::*;
 use std::borrow::Cow;
-#[cfg(test)]
-use tiles::sort_by_tile;
-use tiles::{Destination, GridValues, Layout, TileMap, NO_TILE};
+use tiles::{Destination, GridValues};
 
+mod layout;
 #[cfg(test)]
 mod tests;
 mod tile_rows;
