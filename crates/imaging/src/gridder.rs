@@ -4,8 +4,8 @@
 //! Work layout: every (row, channel) sample is placed once per call (mirrored into the plan's
 //! half of uvw space when the plan folds, see [`GridPlan`]; fractional cell, w-plane coordinate,
 //! first plane and plane count, and the grid tile its footprint starts in), and the samples are
-//! sorted by tile (a parallel counting sort, see `tiles`). For each w plane the samples touching it are spread
-//! band by band and tile by tile through a small cache-resident buffer; bands that could write
+//! sorted by tile (a parallel counting sort, see `layout`). For each w plane the samples touching
+//! it are spread band by band and tile by tile through a small cache-resident buffer; bands that could write
 //! the same grid rows never run at the same time, so every grid cell is summed in one fixed order
 //! and the images are identical bit for bit with any number of threads. Degridding reads each
 //! tile's window of the plane into the same kind of buffer, computes each sample in one task and
@@ -147,9 +147,9 @@ impl<'a> Samples<'a> {
     }
 
     /// Channel, fractional cells (s_x, s_y), plane coordinate (0 when w is ignored) and
-    /// mirroring of the sample with key `key`: when the plan folds (see [`GridPlan`]), a sample of the other
-    /// half (w < 0 with w planes, else v < 0) is placed at (−u, −v, −w) and `true` says its
-    /// value is to be conjugated. Whether a sample is mirrored depends only on the sign of its
+    /// mirroring of the sample with key `key`: when the plan folds (see [`GridPlan`]), a sample
+    /// of the other half (w < 0 with w planes, else v < 0) is placed at (−u, −v, −w) and `true`
+    /// says its value is to be conjugated. Whether a sample is mirrored depends only on the sign of its
     /// row's v or w, so all channels of a row agree.
     #[inline(always)]
     fn at(&self, plan: &GridPlan, key: usize) -> (usize, f64, f64, f64, bool) {
@@ -157,14 +157,8 @@ impl<'a> Samples<'a> {
         let uvw = &self.uvw[3 * r..3 * r + 3];
         let (sx, sy) = (uvw[0] * self.x_scale[c], uvw[1] * self.y_scale[c]);
         match plan.planes {
-            None => {
-                let flip = plan.fold && sy < 0.0;
-                if flip {
-                    (c, -sx, -sy, 0.0, true)
-                } else {
-                    (c, sx, sy, 0.0, false)
-                }
-            }
+            None if plan.fold && sy < 0.0 => (c, -sx, -sy, 0.0, true),
+            None => (c, sx, sy, 0.0, false),
             Some(p) => {
                 let w = uvw[2] * self.per_lambda[c];
                 if plan.fold && w < 0.0 {
@@ -299,11 +293,7 @@ impl ImagingOperator for GridPlan {
         let mut grids = self.pool.take(n_out, px * py);
         let mut rows = vec![false; py];
         let mut images_t = vec![vec![0.0; nx * ny]; n_out];
-        let correction = self.inverse_correction.as_slice().expect("plan arrays are contiguous");
-        let mut screens = match self.planes {
-            Some(_) => Screens::new(self, correction, 1.0),
-            None => Screens::plain(self),
-        };
+        let mut screens = Screens::of_plan(self, 1.0);
         let mut fresh = true;
         for p in 0..self.n_w_planes() {
             if !layout.has_plane(p, w) {
@@ -373,12 +363,7 @@ impl ImagingOperator for GridPlan {
             } else {
                 (&mut all[..], Destination::Samples(np))
             };
-            let correction =
-                self.inverse_correction.as_slice().expect("plan arrays are contiguous");
-            let mut screens = match self.planes {
-                Some(_) => Screens::new(self, correction, -1.0),
-                None => Screens::plain(self),
-            };
+            let mut screens = Screens::of_plan(self, -1.0);
             for p in 0..self.n_w_planes() {
                 if !layout.has_plane(p, w) {
                     continue;

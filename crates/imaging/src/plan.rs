@@ -53,8 +53,8 @@ impl WPlanes {
 /// W² without), and each plane that holds samples costs one pruned 2-D FFT per output image
 /// (only the grid rows with data and the image's columns are transformed: about half a full
 /// FFT). Gridding keeps one padded complex grid (16 · pad_nx · pad_ny bytes) per output image,
-/// shared by all threads (each owns bands of grid rows); degridding keeps one per input image
-/// plus nx · pad_ny complex values of scratch. Results do not depend on the thread count.
+/// shared by all threads (each owns bands of grid rows); degridding keeps one per input image.
+/// Results do not depend on the thread count.
 ///
 /// Folding: the images this operator makes and reads are real, and for a real image the sample
 /// at (−u, −v, −w) carries the conjugate of the one at (u, v, w) (gridding: Re(V e^{iφ}) =

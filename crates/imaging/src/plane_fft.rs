@@ -435,7 +435,7 @@ pub(crate) struct Screens {
     at: Option<usize>,
     /// Whether w is stacked (else the screen is the real correction for the only plane).
     stacked: bool,
-    /// The separable correction (per column, per row) of [`Screens::plain`].
+    /// The separable correction (per column, per row) of [`Screens::of_plan`].
     separable: Option<(Vec<f64>, Vec<f64>)>,
 }
 
@@ -460,16 +460,21 @@ impl Screens {
         Self { correction_t, x_t, step, current, sign, w0, dw, at: None, stacked, separable: None }
     }
 
-    /// The screen of a plan without w planes: its own grid correction, kept separable
-    /// (1/ψ̂ along x times 1/ψ̂ along y), so that no image-sized array is built per call.
-    pub(crate) fn plain(plan: &GridPlan) -> Self {
-        debug_assert!(plan.planes.is_none());
+    /// The screens of `plan` with its own grid correction: [`Screens::new`] with w planes;
+    /// without, the correction kept separable (1/ψ̂ along x times 1/ψ̂ along y), so that no
+    /// image-sized array is built per call.
+    pub(crate) fn of_plan(plan: &GridPlan, sign: f64) -> Self {
+        if plan.planes.is_some() {
+            let correction =
+                plan.inverse_correction.as_slice().expect("plan arrays are contiguous");
+            return Self::new(plan, correction, sign);
+        }
         Self {
             correction_t: Vec::new(),
             x_t: Vec::new(),
             step: Vec::new(),
             current: Vec::new(),
-            sign: 1.0,
+            sign,
             w0: 0.0,
             dw: 0.0,
             at: None,

@@ -189,8 +189,6 @@ fn first_failing<S: ndarray::Data<Elem = f64>, D: ndarray::Dimension>(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use beamfloor_core::Correlation;
-    use ndarray::{Array2, Array3};
 
     fn set(n_rows: usize) -> VisSet {
         VisSet {

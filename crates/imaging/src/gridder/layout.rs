@@ -12,7 +12,7 @@ pub(super) const TILE: usize = 16;
 
 /// `g` modulo `n` in [0, n), without a division for the common |g| < n.
 #[inline(always)]
-pub(super) fn wrap(g: i64, n: usize) -> usize {
+fn wrap(g: i64, n: usize) -> usize {
     let n = n as i64;
     if (0..n).contains(&g) {
         g as usize
@@ -49,6 +49,13 @@ impl TileMap {
 
     pub(super) fn bands(&self) -> usize {
         self.starts.len() - 1
+    }
+
+    /// Offsets in the tile buffer of band `band`, tile column `tx`, of a footprint whose first
+    /// cell is (gx0, gy0) before wrapping (the footprint must start in that tile).
+    #[inline]
+    pub(super) fn offset(&self, band: usize, tx: u32, gx0: i64, gy0: i64) -> (usize, usize) {
+        (wrap(gx0, self.pad_nx) - tx as usize * TILE, wrap(gy0, self.pad_ny) - self.starts[band])
     }
 
     /// Tile of a footprint whose first cell is (gx0, gy0) before wrapping.
@@ -270,11 +277,9 @@ impl Rect {
         Rect { c0: a.c0.min(b.c0), c1: a.c1.max(b.c1), r0: a.r0.min(b.r0), r1: a.r1.max(b.r1) }
     }
 
+    /// Grow `rect` to hold the W × W footprint starting at (dx, dy).
     pub(super) fn grow(rect: &mut Option<Rect>, dx: usize, dy: usize, w: usize) {
-        let r = rect.get_or_insert(Rect { c0: dx, c1: dx + w, r0: dy, r1: dy + w });
-        r.c0 = r.c0.min(dx);
-        r.c1 = r.c1.max(dx + w);
-        r.r0 = r.r0.min(dy);
-        r.r1 = r.r1.max(dy + w);
+        let footprint = Rect { c0: dx, c1: dx + w, r0: dy, r1: dy + w };
+        *rect = Some(rect.map_or(footprint, |r| Rect::union(r, footprint)));
     }
 }

@@ -3,10 +3,11 @@
 //! The padded grid's rows are split into bands of `TILE` to 2 · `TILE` − 1 rows and each band's
 //! columns into tiles of `TILE` columns. A placed sample belongs to the tile that holds the first
 //! cell of its footprint, and the samples are ordered by (band, tile, first w plane, sample
-//! index) (see `layout`). A band's samples are spread tile by tile into a small buffer (the tile's footprint
-//! window, real and imaginary parts apart so that a footprint row is a plain vector loop over the
-//! W taps — AVX2 with FMA when the CPU has it), and the buffer is added to the grid once per tile
-//! instead of W² scattered updates per sample into a grid far larger than the caches.
+//! index) (see `layout`). A band's samples are spread tile by tile into a small buffer (the
+//! tile's footprint window, real and imaginary parts apart so that a footprint row is a plain
+//! vector loop over the W taps — AVX2 with FMA when the CPU has it), and the buffer is added to
+//! the grid once per tile instead of W² scattered updates per sample into a grid far larger than
+//! the caches.
 //!
 //! Determinism: a band's footprints reach at most W − 1 ≤ `TILE` rows into the next band, so the
 //! bands are spread in phases of every other band (three phases for an odd count, the last band
@@ -14,7 +15,7 @@
 //! order. Every grid cell thus receives the same sums in the same order whatever the number of
 //! threads. Degridding only reads the grid: each band's samples are computed by one task, which
 //! alone adds into those samples' places (see `Destination`).
-use super::layout::{wrap, Block, Layout, Rect, TILE};
+use super::layout::{Block, Layout, Rect, TILE};
 #[cfg(target_arch = "x86_64")]
 use super::tile_rows::AvxRows;
 use super::tile_rows::{prefetch, ScalarRows, Simd, TileRows};
@@ -139,8 +140,7 @@ impl Job<'_> {
             return false;
         }
         let map = &self.layout.map;
-        f.dx = wrap(gx, map.pad_nx) - tx as usize * TILE;
-        f.dy = wrap(gy, map.pad_ny) - map.starts[self.band];
+        (f.dx, f.dy) = map.offset(self.band, tx, gx, gy);
         debug_assert!(f.dx < TILE && f.dy < map.starts[self.band + 1] - map.starts[self.band]);
         f.chan = c;
         f.flip = flip;
@@ -158,39 +158,22 @@ impl Job<'_> {
         }
     }
 
-    /// The rectangle of the tile buffer that the footprints of `blocks` (tile column `tx`) on
-    /// the job's plane cover (None when none is on it): their first cells are ⌈s − W/2⌉, as
-    /// the taps compute them.
-    fn window(&self, tx: u32, blocks: &[Block]) -> Option<Rect> {
-        let plan = self.plan;
+    /// The rectangle of the tile buffer to load for `blocks` (one tile column) on the job's
+    /// plane: the whole window without w planes, else the union of the blocks' measured
+    /// rectangles (see [`GridPlan::measure_blocks`]).
+    fn window(&self, blocks: &[Block]) -> Option<Rect> {
         let map = &self.layout.map;
-        let w = plan.kernel.support();
-        let half = 0.5 * w as f64;
-        let Some(p) = self.plane else {
+        let w = self.plan.kernel.support();
+        if self.plane.is_none() {
             // Without w planes every sample is on the plane: the whole window, which is cheaper
             // to load than to narrow down.
             let rows = map.starts[self.band + 1] - map.starts[self.band];
             return Some(Rect { c0: 0, c1: TILE - 1 + w, r0: 0, r1: rows - 1 + w });
-        };
-        if blocks.iter().all(|b| b.rect.is_some()) {
-            // Measured blocks: the union of their rectangles (a superset of the footprints on
-            // this plane when some samples of a block stop short of it).
-            return blocks.iter().filter_map(|b| b.rect).reduce(Rect::union);
         }
-        let mut rect = None;
-        for bl in blocks {
-            for &key in &self.layout.order[bl.start..bl.end] {
-                let (_, sx, sy, sw, _) = self.samples.at(plan, key);
-                let (first, count) = plan.plane_span(sw);
-                if p < first || p >= first + count {
-                    continue;
-                }
-                let dx = wrap(ceil_i64(sx - half), map.pad_nx) - tx as usize * TILE;
-                let dy = wrap(ceil_i64(sy - half), map.pad_ny) - map.starts[self.band];
-                Rect::grow(&mut rect, dx, dy, w);
-            }
-        }
-        rect
+        // The union of the blocks' rectangles (a superset of the footprints on this plane when
+        // some samples of a block stop short of it).
+        let measured = |b: &Block| b.rect.expect("blocks are measured before w-plane passes");
+        blocks.iter().map(measured).reduce(Rect::union)
     }
 
     /// Tile groups of the band: the band's blocks on the job's plane, and runs of them with one
@@ -320,7 +303,7 @@ impl Job<'_> {
         for &(tx, a, z) in &groups {
             let blocks = &on[a..z];
             let x0 = tx as usize * TILE;
-            let Some(rect) = self.window(tx, blocks) else { continue };
+            let Some(rect) = self.window(blocks) else { continue };
             // The vector loops read L lanes from a footprint's first column.
             let (c0, c1) = (rect.c0, rect.c1 - w + L);
             for (grid, chunk) in grids.iter().zip(buf.chunks_exact_mut(2 * BUFFER)) {
@@ -441,9 +424,9 @@ impl GridPlan {
             for bl in blocks {
                 let mut rect = None;
                 for &key in &order[bl.start..bl.end] {
+                    // The same first cell as the polynomial taps compute: ⌈s − W/2⌉.
                     let (_, sx, sy, _, _) = samples.at(self, key);
-                    let dx = wrap(ceil_i64(sx - half), map.pad_nx) - bl.tx as usize * TILE;
-                    let dy = wrap(ceil_i64(sy - half), map.pad_ny) - map.starts[b];
+                    let (dx, dy) = map.offset(b, bl.tx, ceil_i64(sx - half), ceil_i64(sy - half));
                     Rect::grow(&mut rect, dx, dy, w);
                 }
                 bl.rect = rect;
@@ -528,29 +511,28 @@ impl GridPlan {
         let out = &Disjoint::new(out);
         (0..layout.map.bands()).into_par_iter().with_max_len(1).for_each(|band| {
             let job = Job { plan: self, samples, layout, band, plane };
-            let acc = (out, dest);
             match (simd, lanes) {
                 #[cfg(target_arch = "x86_64")]
                 // SAFETY: Simd::detect found AVX2 and FMA on this CPU.
                 (Simd::Avx2Fma, 4) => unsafe {
-                    interpolate_band_avx::<4>(&job, grids, factors, acc.0, acc.1)
+                    interpolate_band_avx::<4>(&job, grids, factors, out, dest)
                 },
                 #[cfg(target_arch = "x86_64")]
                 (Simd::Avx2Fma, 8) => unsafe {
-                    interpolate_band_avx::<8>(&job, grids, factors, acc.0, acc.1)
+                    interpolate_band_avx::<8>(&job, grids, factors, out, dest)
                 },
                 #[cfg(target_arch = "x86_64")]
                 (Simd::Avx2Fma, 12) => unsafe {
-                    interpolate_band_avx::<12>(&job, grids, factors, acc.0, acc.1)
+                    interpolate_band_avx::<12>(&job, grids, factors, out, dest)
                 },
                 #[cfg(target_arch = "x86_64")]
                 (Simd::Avx2Fma, _) => unsafe {
-                    interpolate_band_avx::<16>(&job, grids, factors, acc.0, acc.1)
+                    interpolate_band_avx::<16>(&job, grids, factors, out, dest)
                 },
-                (_, 4) => job.interpolate_band::<ScalarRows, 4>(grids, factors, acc.0, acc.1),
-                (_, 8) => job.interpolate_band::<ScalarRows, 8>(grids, factors, acc.0, acc.1),
-                (_, 12) => job.interpolate_band::<ScalarRows, 12>(grids, factors, acc.0, acc.1),
-                _ => job.interpolate_band::<ScalarRows, 16>(grids, factors, acc.0, acc.1),
+                (_, 4) => job.interpolate_band::<ScalarRows, 4>(grids, factors, out, dest),
+                (_, 8) => job.interpolate_band::<ScalarRows, 8>(grids, factors, out, dest),
+                (_, 12) => job.interpolate_band::<ScalarRows, 12>(grids, factors, out, dest),
+                _ => job.interpolate_band::<ScalarRows, 16>(grids, factors, out, dest),
             }
         });
     }
