@@ -1,13 +1,16 @@
 //! Throughput of the uv-kernel A-projection operator ([`KernelAProjection`]) at realistic kernel
 //! supports: a 13.5 m dish, 1–2 GHz in 8 channels, uv cells of 8 wavelengths (so S ≈ 19 cells
 //! at 1 GHz and 31 at 2 GHz, the sizes of the demo's 720² image of 18″ pixels), both hands,
-//! 66 baselines × 40 times of synthetic Earth-rotation tracks, w ignored (one plane, so the
-//! spreading loop dominates over the single 512² FFT).
+//! 66 baselines × 40 times of synthetic Earth-rotation tracks. Two cases:
+//! `1plane-1image` (w ignored, one image: every interpolated kernel cell is used once, so the
+//! loop is bounded by reading the kernel tables) and `wstack-2images` (w-stacking and two
+//! Taylor-weighted images at once, the shape of a multi-term imaging call: each interpolated
+//! cell serves every w plane the sample touches and both images).
 //!
 //! Throughput is reported in floating-point operations ([`KernelAProjection::flop_count`]:
-//! 8 per kernel cell per image for the complex multiply-add plus 14 for the bilinear kernel),
-//! so criterion's "elem/s" reads as FLOP/s; the visibilities per call are printed once, for
-//! vis/s = (samples per call) / (time per call).
+//! 8 per kernel cell per plane per image for the complex multiply-add plus 14 for the bilinear
+//! kernel), so criterion's "elem/s" reads as FLOP/s; the visibilities and FLOP per call are
+//! printed once per case.
 
 use beamfloor_beam::{ApertureParams, DishBeam, DishBeamParams, EffectParams, SquintParams};
 use beamfloor_core::{derive_seed, Correlation, ImageGeometry, SeedPurpose};
@@ -105,54 +108,69 @@ fn setup() -> (DishBeam, VisSet) {
 fn bench(c: &mut Criterion) {
     let (beam, vis) = setup();
     let geometry = ImageGeometry::new(NX, NX, CELL_RAD);
-    let params = KernelAProjectionParams {
-        gridder: GridderParams { epsilon: 1e-7, w_term: WTerm::Ignore },
-        ..KernelAProjectionParams::default()
-    };
-    let w = WRange::of_visibilities(&vis).expect("valid set");
-    let op = KernelAProjection::new(
-        geometry,
-        &beam,
-        vec![0; N_TIME],
-        vis.frequencies_hz.clone(),
-        w,
-        params,
-    )
-    .expect("plan");
-    let est = op.table_estimate();
-    let samples = vis.n_rows() * vis.n_channels() * vis.n_correlations();
-    println!(
-        "aproj bench: {samples} samples per call, supports {}..={} cells, tables {:.0} MB",
-        est.min_support,
-        est.max_support,
-        est.bytes as f64 / 1e6
-    );
-    let out = [GridOutput { source: 0, channel_factors: vec![1.0; N_CHAN] }];
     let image = Array2::from_shape_fn((NX, NX), |(y, x)| ((x * 7 + y * 3) % 11) as f64 - 5.0);
-    let flops = op.flop_count(&vis, 1).expect("count");
     let mut group = c.benchmark_group("aproj_kernel");
     group
         .sample_size(10)
         .warm_up_time(Duration::from_secs(1))
         .measurement_time(Duration::from_secs(4));
-    group.throughput(Throughput::Elements(flops as u64));
-    for threads in [1, 2] {
-        let pool = rayon::ThreadPoolBuilder::new().num_threads(threads).build().expect("pool");
-        group.bench_function(format!("grid/S19-31/threads={threads}"), |b| {
-            b.iter(|| {
-                pool.install(|| black_box(op.grid(&vis, &[vis.data.view()], &out).expect("grid")))
+    // Two cases: the spreading loop alone (w ignored, one image: each interpolated kernel cell
+    // is used once, so the rate is bounded by reading the kernel tables), and the shape of a
+    // multi-term imaging call (w-stacking, two Taylor images gridded at once and degridded
+    // together: each interpolated cell serves every w plane the sample touches and each image).
+    for (case, w_term, n_images) in
+        [("1plane-1image", WTerm::Ignore, 1), ("wstack-2images", WTerm::Stack, 2)]
+    {
+        let params = KernelAProjectionParams {
+            gridder: GridderParams { epsilon: 1e-7, w_term },
+            ..KernelAProjectionParams::default()
+        };
+        let w = WRange::of_visibilities(&vis).expect("valid set");
+        let op = KernelAProjection::new(
+            geometry,
+            &beam,
+            vec![0; N_TIME],
+            vis.frequencies_hz.clone(),
+            w,
+            params,
+        )
+        .expect("plan");
+        let est = op.table_estimate();
+        let samples = vis.n_rows() * vis.n_channels() * vis.n_correlations();
+        let flops = op.flop_count(&vis, n_images).expect("count");
+        println!(
+            "aproj bench {case}: {samples} samples per call, supports {}..={} cells, tables \
+             {:.0} MB, {:.3} GFLOP per call",
+            est.min_support,
+            est.max_support,
+            est.bytes as f64 / 1e6,
+            flops / 1e9
+        );
+        // Taylor-like channel weights (1, then (ν − ν0)/ν0).
+        let factors: Vec<Vec<f64>> = (0..n_images)
+            .map(|t| {
+                vis.frequencies_hz.iter().map(|f| ((f - 1.5e9) / 1.5e9).powi(t as i32)).collect()
             })
-        });
-        group.bench_function(format!("degrid/S19-31/threads={threads}"), |b| {
-            b.iter(|| {
-                pool.install(|| {
-                    black_box(
-                        op.degrid(&vis, std::slice::from_ref(&image), &[vec![1.0; N_CHAN]])
-                            .expect("degrid"),
-                    )
+            .collect();
+        let out: Vec<GridOutput> =
+            factors.iter().map(|f| GridOutput { source: 0, channel_factors: f.clone() }).collect();
+        let images = vec![image.clone(); n_images];
+        group.throughput(Throughput::Elements(flops as u64));
+        for threads in [1, 2] {
+            let pool = rayon::ThreadPoolBuilder::new().num_threads(threads).build().expect("pool");
+            group.bench_function(format!("grid/{case}/S19-31/threads={threads}"), |b| {
+                b.iter(|| {
+                    pool.install(|| {
+                        black_box(op.grid(&vis, &[vis.data.view()], &out).expect("grid"))
+                    })
                 })
-            })
-        });
+            });
+            group.bench_function(format!("degrid/{case}/S19-31/threads={threads}"), |b| {
+                b.iter(|| {
+                    pool.install(|| black_box(op.degrid(&vis, &images, &factors).expect("degrid")))
+                })
+            });
+        }
     }
     group.finish();
 }

@@ -2,7 +2,9 @@
 //! kernel lattice, deterministic band-parallel spreading, row-parallel interpolation, and the
 //! per-plane FFT and screen.
 use super::kernel_operator::{KernelAProjection, KernelInterpolation, Side};
-use super::kernel_rows::{accumulate_conj, bilinear_row, dot_rows, widen_row, RowSimd};
+use super::kernel_rows::{
+    bilinear_row, dot_row, spread_row, widen_row, LaneSums, LineTarget, RowSimd,
+};
 use super::kernel_table::KernelTable;
 use crate::error::ImagingError;
 use crate::operator::{check_degrid_args, check_grid_args, GridOutput, ImagingOperator};
@@ -153,20 +155,22 @@ impl<B: VoltageBeam + ?Sized> KernelAProjection<'_, B> {
         Ok(())
     }
 
-    /// Row `j` of a site's kernel from `table`, in double precision in `scratch`: a row of the
-    /// table (nearest lookup) or the bilinear interpolation of four rows.
+    /// Rows `rows` of a site's kernel from `table`, in double precision in `scratch` (row
+    /// after row, S cells each): the table's rows (nearest lookup) or the bilinear
+    /// interpolation of four slices' rows. The rows of a slice are contiguous, so the whole
+    /// block is one pass over memory.
     #[inline]
-    fn kernel_row<'t>(
+    fn kernel_block<'t>(
         &self,
         simd: RowSimd,
         table: &'t KernelTable,
         s: &Site,
-        j: usize,
+        rows: std::ops::Range<usize>,
         scratch: &'t mut [Complex64],
     ) -> &'t [Complex64] {
         let n = s.support;
-        let range = j * n..(j + 1) * n;
-        let out = &mut scratch[..n];
+        let range = rows.start * n..rows.end * n;
+        let out = &mut scratch[..range.len()];
         match self.params.interpolation {
             KernelInterpolation::Nearest => widen_row(out, &table.slice(s.fy, s.fx)[range]),
             KernelInterpolation::Bilinear => {
@@ -188,22 +192,22 @@ impl<B: VoltageBeam + ?Sized> KernelAProjection<'_, B> {
         out
     }
 
-    /// Kernel rows `j` of both correlations' tables of a site (the second equal to the first
-    /// when there is one correlation).
+    /// Kernel rows `rows` of both correlations' tables of a site (the second equal to the
+    /// first when there is one correlation); `scratch` holds at least 2 S² values.
     #[inline]
-    fn kernel_rows<'t>(
+    fn kernel_blocks<'t>(
         &'t self,
         simd: RowSimd,
         s: &Site,
         hands: &[usize],
-        j: usize,
+        rows: std::ops::Range<usize>,
         scratch: &'t mut [Complex64],
     ) -> [&'t [Complex64]; 2] {
         let half = scratch.len() / 2;
         let (s0, s1) = scratch.split_at_mut(half);
-        let k0 = self.kernel_row(simd, &self.tables[s.tables[hands[0]]], s, j, s0);
+        let k0 = self.kernel_block(simd, &self.tables[s.tables[hands[0]]], s, rows.clone(), s0);
         if hands.len() > 1 {
-            [k0, self.kernel_row(simd, &self.tables[s.tables[hands[1]]], s, j, s1)]
+            [k0, self.kernel_block(simd, &self.tables[s.tables[hands[1]]], s, rows, s1)]
         } else {
             [k0, k0]
         }
@@ -369,9 +373,10 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
                             });
                             let max_s =
                                 visits.iter().map(|v| sites[v.site].support).max().unwrap_or(0);
-                            let mut krow_scratch = vec![ZERO; 2 * max_s];
+                            let mut block_scratch = vec![ZERO; 2 * max_s * max_s];
                             let mut base = vec![ZERO; n_out * np];
-                            let mut vals = vec![ZERO; window * n_out * np];
+                            // One target line per (plane of the span, output).
+                            let mut targets: Vec<LineTarget> = Vec::with_capacity(window * n_out);
                             for v in visits.iter() {
                                 let s = &sites[v.site];
                                 let (r, c) = (v.site / nc, v.site % nc);
@@ -387,50 +392,54 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
                                 if !any {
                                     continue;
                                 }
-                                let count = spans[v.site].1;
-                                for q in 0..count {
+                                targets.clear();
+                                for q in 0..spans[v.site].1 {
                                     let kw = self.plane_weight(s.w, p + q);
-                                    for (d, x) in vals[q * n_out * np..(q + 1) * n_out * np]
-                                        .iter_mut()
-                                        .zip(&base)
-                                    {
-                                        *d = x * kw;
+                                    let slot = (p + q) % window;
+                                    for (o, x) in base.chunks(np).enumerate() {
+                                        let mut vals = [ZERO; 2];
+                                        for (d, x) in vals.iter_mut().zip(x) {
+                                            *d = x * kw;
+                                        }
+                                        targets.push(LineTarget { grid: slot * n_out + o, vals });
                                     }
                                 }
                                 let n = s.support;
                                 let x0 = s.x0.rem_euclid(px as i64) as usize;
                                 let n1 = n.min(px - x0);
+                                let block = self.kernel_blocks(
+                                    simd,
+                                    s,
+                                    &hands,
+                                    v.j0..v.j1,
+                                    &mut block_scratch,
+                                );
                                 for j in v.j0..v.j1 {
                                     let y = (s.y0 + j as i64).rem_euclid(py as i64) as usize
                                         - b * BAND_ROWS;
-                                    let krows =
-                                        self.kernel_rows(simd, s, &hands, j, &mut krow_scratch);
+                                    let at = (j - v.j0) * n..(j - v.j0 + 1) * n;
+                                    let krows = [&block[0][at.clone()], &block[1][at]];
                                     let (head, tail) = (
                                         [&krows[0][..n1], &krows[1][..n1]],
                                         [&krows[0][n1..], &krows[1][n1..]],
                                     );
-                                    for q in 0..count {
-                                        let slot = (p + q) % window;
-                                        for o in 0..n_out {
-                                            let vals = &vals
-                                                [(q * n_out + o) * np..(q * n_out + o + 1) * np];
-                                            let line =
-                                                &mut chunks[slot * n_out + o][y * px..(y + 1) * px];
-                                            accumulate_conj(
-                                                simd,
-                                                &mut line[x0..x0 + n1],
-                                                &head[..np],
-                                                vals,
-                                            );
-                                            if n1 < n {
-                                                accumulate_conj(
-                                                    simd,
-                                                    &mut line[..n - n1],
-                                                    &tail[..np],
-                                                    vals,
-                                                );
-                                            }
-                                        }
+                                    // A footprint past the grid's last column wraps to its
+                                    // first (the grid is periodic).
+                                    spread_row(
+                                        simd,
+                                        &mut chunks,
+                                        y * px + x0,
+                                        &head[..np],
+                                        &targets,
+                                    );
+                                    if n1 < n {
+                                        spread_row(
+                                            simd,
+                                            &mut chunks,
+                                            y * px,
+                                            &tail[..np],
+                                            &targets,
+                                        );
                                     }
                                 }
                             }
@@ -564,13 +573,17 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
                         self.plan.plane_from_image(image_t, screen, &image_rows, grid);
                     }
                 }
-                let ring = &ring;
+                let ring: Vec<&[Complex64]> = ring.iter().map(|g| g.as_slice()).collect();
+                let ring = &ring[..];
                 let values: Vec<[Complex64; 2]> = bucket
                     .par_chunks(DEGRID_SITES)
                     .flat_map_iter(|chunk| {
-                        let mut krow_scratch = vec![ZERO; 2 * max_s];
-                        // acc[(q · n_img + t) · np + k]: plane q of the span, image t, hand k.
-                        let mut acc = vec![ZERO; window * n_img * np];
+                        let mut block_scratch = vec![ZERO; 2 * max_s * max_s];
+                        // Per line read (a plane q of the span and an image t with a share
+                        // in the sample's channel): its grid, (q, t), and the running sums.
+                        let mut lines: Vec<usize> = Vec::with_capacity(window * n_img);
+                        let mut which: Vec<(usize, usize)> = Vec::with_capacity(window * n_img);
+                        let mut sums = vec![LaneSums::default(); window * n_img];
                         chunk
                             .iter()
                             .map(|&i| {
@@ -585,47 +598,41 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
                                 let n = s.support;
                                 let x0 = s.x0.rem_euclid(px as i64) as usize;
                                 let n1 = n.min(px - x0);
-                                let count = spans[i].1;
-                                let acc = &mut acc[..count * n_img * np];
-                                acc.iter_mut().for_each(|a| *a = ZERO);
+                                lines.clear();
+                                which.clear();
+                                for q in 0..spans[i].1 {
+                                    let slot = (p + q) % window;
+                                    // An image with no share in this channel (a zero factor,
+                                    // as in per-channel prediction) adds nothing: skip it.
+                                    for t in (0..n_img).filter(|&t| factors[t][c] != 0.0) {
+                                        lines.push(slot * n_img + t);
+                                        which.push((q, t));
+                                    }
+                                }
+                                let sums = &mut sums[..lines.len()];
+                                sums.iter_mut().for_each(|s| *s = LaneSums::default());
                                 // Each kernel row is interpolated once and read against every
                                 // plane and image of the sample.
+                                let block =
+                                    self.kernel_blocks(simd, s, &hands, 0..n, &mut block_scratch);
                                 for j in 0..n {
-                                    let krows =
-                                        self.kernel_rows(simd, s, &hands, j, &mut krow_scratch);
+                                    let at = j * n..(j + 1) * n;
+                                    let krows = [&block[0][at.clone()], &block[1][at]];
                                     let (head, tail) = (
                                         [&krows[0][..n1], &krows[1][..n1]],
                                         [&krows[0][n1..], &krows[1][n1..]],
                                     );
                                     let y = (s.y0 + j as i64).rem_euclid(py as i64) as usize;
-                                    for (q, acc_q) in acc.chunks_mut(n_img * np).enumerate() {
-                                        let slot = (p + q) % window;
-                                        for (t, a) in acc_q.chunks_mut(np).enumerate() {
-                                            // An image with no share in this channel (a zero
-                                            // factor, as in per-channel prediction) adds
-                                            // nothing: skip its dot products.
-                                            if factors[t][c] == 0.0 {
-                                                continue;
-                                            }
-                                            let line =
-                                                &ring[slot * n_img + t][y * px..(y + 1) * px];
-                                            dot_rows(simd, &line[x0..x0 + n1], &head[..np], a);
-                                            if n1 < n {
-                                                dot_rows(simd, &line[..n - n1], &tail[..np], a);
-                                            }
-                                        }
+                                    dot_row(simd, ring, y * px + x0, &head[..np], &lines, sums);
+                                    if n1 < n {
+                                        dot_row(simd, ring, y * px, &tail[..np], &lines, sums);
                                     }
                                 }
                                 let mut total = [ZERO; 2];
-                                for (q, acc_q) in acc.chunks(n_img * np).enumerate() {
-                                    let kw = self.plane_weight(s.w, p + q);
+                                for (sum, &(q, t)) in sums.iter().zip(&which) {
+                                    let f = self.plane_weight(s.w, p + q) * factors[t][c];
                                     for (k, tot) in total.iter_mut().enumerate().take(np) {
-                                        let sum: Complex64 = acc_q
-                                            .chunks(np)
-                                            .zip(factors)
-                                            .map(|(a, f)| a[k] * f[c])
-                                            .sum();
-                                        *tot += sum * kw;
+                                        *tot += sum.value(k) * f;
                                     }
                                 }
                                 total

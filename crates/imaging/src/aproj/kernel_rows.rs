@@ -1,11 +1,19 @@
 //! The innermost loops of [`crate::KernelAProjection`]: one footprint row of complex kernel
-//! values against one contiguous row of the padded grid, for one or two correlations at once
-//! (the two hands of a sample share the grid row, so it is loaded and stored once).
+//! values against the grid lines it meets, for one or two correlations at once (the two hands
+//! of a sample share the grid line, so it is loaded and stored once), and the interpolation
+//! of kernel rows from the single-precision tables.
 //!
-//! Each loop has a scalar path and an AVX2 + FMA path picked at run time ([`RowSimd::detect`]).
-//! The vector form keeps the complex numbers interleaved (re, im) and writes a complex product
-//! d += k · v as two real fused multiply-adds over f64 lanes, d += k ⊙ A + swap(k) ⊙ B, with
-//! swap(k) = (k_im, k_re) and the constant lane pairs A, B below — no shuffles of the grid.
+//! One call takes a kernel row to *every* line it updates or reads (one per w plane and
+//! image), so the per-call set-up (lane constants, bounds, dispatch) is paid once per row and
+//! not once per line; on the w-stacked benchmark that set-up had cost about a third of the
+//! spreading time.
+//!
+//! Each loop has a scalar path, an AVX2 + FMA path and an AVX-512 path picked at run time
+//! ([`RowSimd::detect`]). The vector forms keep the complex numbers interleaved (re, im) and
+//! write a complex product d += k · v as two real fused multiply-adds over f64 lanes,
+//! d += k ⊙ A + swap(k) ⊙ B, with swap(k) = (k_im, k_re), A = (v_re, −v_re, …) and
+//! B = (v_im, v_im, …) for d += conj(k) · v — no shuffles of the grid. Dot products keep lane
+//! sums ([`LaneSums`]) across the rows of a footprint and reduce them once.
 use num_complex::{Complex32, Complex64};
 
 /// Which implementation of the row loops to run.
@@ -15,6 +23,9 @@ pub(crate) enum RowSimd {
     Scalar,
     /// 256-bit AVX2 with FMA (x86-64 only, checked at run time).
     Avx2Fma,
+    /// 512-bit AVX-512 (F and VL; x86-64 only, checked at run time): twice the lanes of
+    /// [`RowSimd::Avx2Fma`] and masked loads and stores for the odd tail of a row.
+    Avx512,
 }
 
 impl RowSimd {
@@ -22,6 +33,11 @@ impl RowSimd {
     pub(crate) fn detect() -> Self {
         #[cfg(target_arch = "x86_64")]
         {
+            if std::arch::is_x86_feature_detected!("avx512f")
+                && std::arch::is_x86_feature_detected!("avx512vl")
+            {
+                return Self::Avx512;
+            }
             if std::arch::is_x86_feature_detected!("avx2")
                 && std::arch::is_x86_feature_detected!("fma")
             {
@@ -30,13 +46,26 @@ impl RowSimd {
         }
         Self::Scalar
     }
-}
 
-/// Lane constants (A, B) of d += conj(k) · v (gridding): re = k_re v_re + k_im v_im,
-/// im = k_im (−v_re) + k_re v_im.
-#[inline]
-fn conj_lanes(v: Complex64) -> ([f64; 2], [f64; 2]) {
-    ([v.re, -v.re], [v.im, v.im])
+    /// Every implementation this CPU supports (for tests that compare them).
+    #[cfg(test)]
+    fn supported() -> Vec<Self> {
+        let mut all = vec![Self::Scalar];
+        #[cfg(target_arch = "x86_64")]
+        {
+            if std::arch::is_x86_feature_detected!("avx2")
+                && std::arch::is_x86_feature_detected!("fma")
+            {
+                all.push(Self::Avx2Fma);
+            }
+            if std::arch::is_x86_feature_detected!("avx512f")
+                && std::arch::is_x86_feature_detected!("avx512vl")
+            {
+                all.push(Self::Avx512);
+            }
+        }
+        all
+    }
 }
 
 #[inline]
@@ -61,6 +90,9 @@ pub(crate) fn bilinear_row(
         // SAFETY: Avx2Fma is only ever constructed after detecting AVX2 and FMA; all slices
         // have length n (checked by the slicing above).
         RowSimd::Avx2Fma => unsafe { avx::bilinear(out, a, b, c, d, w) },
+        #[cfg(target_arch = "x86_64")]
+        // SAFETY: Avx512 is only constructed after detecting AVX-512 F and VL; equal lengths.
+        RowSimd::Avx512 => unsafe { avx512::bilinear(out, a, b, c, d, w) },
         _ => {
             for i in 0..n {
                 out[i] =
@@ -78,61 +110,114 @@ pub(crate) fn widen_row(out: &mut [Complex64], a: &[Complex32]) {
     }
 }
 
-/// `dst[i] += Σ_h conj(krows[h][i]) · vals[h]` for one or two correlations (gridding).
+/// One grid line that a kernel row is spread into: the buffer it lives in, and the sample's
+/// value per hand for that line (plane weight and image factor applied; the second unused
+/// with one correlation).
+#[derive(Clone, Copy, Debug)]
+pub(crate) struct LineTarget {
+    pub grid: usize,
+    pub vals: [Complex64; 2],
+}
+
+/// Gridding of one kernel row into several lines: for every target t and i < n,
+/// `grids[t.grid][at + i] += Σ_h conj(krows[h][i]) · t.vals[h]`, over the one or two hands
+/// of `krows` (each of length n).
 #[inline]
-pub(crate) fn accumulate_conj(
+pub(crate) fn spread_row(
     simd: RowSimd,
-    dst: &mut [Complex64],
+    grids: &mut [&mut [Complex64]],
+    at: usize,
     krows: &[&[Complex64]],
-    vals: &[Complex64],
+    targets: &[LineTarget],
 ) {
-    let n = dst.len();
-    match (simd, krows.len()) {
+    let n = krows[0].len();
+    assert!(
+        (1..=2).contains(&krows.len()) && krows.iter().all(|k| k.len() == n),
+        "one or two kernel rows of equal length"
+    );
+    // Every line is checked once here, so that the vector loops may write n values from `at`.
+    for t in targets {
+        assert!(at + n <= grids[t.grid].len(), "line {} too short", t.grid);
+    }
+    match simd {
         #[cfg(target_arch = "x86_64")]
-        // SAFETY: as in `bilinear_row`; every kernel row is sliced to n.
-        (RowSimd::Avx2Fma, 1) => unsafe {
-            let (a, b) = conj_lanes(vals[0]);
-            avx::accumulate1(dst, &krows[0][..n], a, b)
-        },
+        // SAFETY: Avx2Fma is only constructed after detecting AVX2 and FMA; lengths checked
+        // above.
+        RowSimd::Avx2Fma => unsafe { avx::spread(grids, at, krows, targets) },
         #[cfg(target_arch = "x86_64")]
-        // SAFETY: as above.
-        (RowSimd::Avx2Fma, 2) => unsafe {
-            let ((a0, b0), (a1, b1)) = (conj_lanes(vals[0]), conj_lanes(vals[1]));
-            avx::accumulate2(dst, &krows[0][..n], a0, b0, &krows[1][..n], a1, b1)
-        },
+        // SAFETY: Avx512 is only constructed after detecting AVX-512 F and VL; as above.
+        RowSimd::Avx512 => unsafe { avx512::spread(grids, at, krows, targets) },
         _ => {
-            for (krow, &v) in krows.iter().zip(vals) {
-                for (d, k) in dst.iter_mut().zip(&krow[..n]) {
-                    *d += k.conj() * v;
+            for t in targets {
+                let line = &mut grids[t.grid][at..at + n];
+                for (krow, v) in krows.iter().zip(t.vals) {
+                    for (d, k) in line.iter_mut().zip(krow.iter()) {
+                        *d += k.conj() * v;
+                    }
                 }
             }
         }
     }
 }
 
-/// `out[h] = Σ_i grid[i] · krows[h][i]` for one or two correlations (degridding).
+/// Running sums of Σ g · k for one line and the one or two hands, kept as lane sums so that
+/// the vector loops reduce them once per footprint instead of once per row: per hand,
+/// P = Σ g ⊙ k and Q = Σ g ⊙ swap(k) over interleaved (re, im) lanes, so that
+/// Σ g · k = (Σ P_even − Σ P_odd) + i Σ Q. Start from `LaneSums::default()` (zero).
+#[derive(Clone, Copy, Debug, Default)]
+pub(crate) struct LaneSums {
+    p: [[f64; 8]; 2],
+    q: [[f64; 8]; 2],
+}
+
+impl LaneSums {
+    /// Σ g · k of hand `h`.
+    pub(crate) fn value(&self, h: usize) -> Complex64 {
+        let (p, q) = (&self.p[h], &self.q[h]);
+        let re = (p[0] - p[1]) + (p[2] - p[3]) + ((p[4] - p[5]) + (p[6] - p[7]));
+        Complex64::new(re, q.iter().sum())
+    }
+}
+
+/// Degridding of one kernel row against several lines: for every target line `g = lines[j]`,
+/// `sums[j]` (per hand h) += Σ_{i<n} grids[g][at + i] · krows[h][i].
 #[inline]
-pub(crate) fn dot_rows(
+pub(crate) fn dot_row(
     simd: RowSimd,
-    grid: &[Complex64],
+    grids: &[&[Complex64]],
+    at: usize,
     krows: &[&[Complex64]],
-    out: &mut [Complex64],
+    lines: &[usize],
+    sums: &mut [LaneSums],
 ) {
-    let n = grid.len();
-    match (simd, krows.len()) {
+    let n = krows[0].len();
+    assert!(
+        (1..=2).contains(&krows.len()) && krows.iter().all(|k| k.len() == n),
+        "one or two kernel rows of equal length"
+    );
+    assert!(sums.len() >= lines.len(), "one running sum per line");
+    for &g in lines {
+        assert!(at + n <= grids[g].len(), "line {g} too short");
+    }
+    match simd {
         #[cfg(target_arch = "x86_64")]
-        // SAFETY: as in `bilinear_row`.
-        (RowSimd::Avx2Fma, 1) => unsafe { out[0] += avx::dot1(grid, &krows[0][..n]) },
+        // SAFETY: Avx2Fma is only constructed after detecting AVX2 and FMA; lengths checked
+        // above.
+        RowSimd::Avx2Fma => unsafe { avx::dot(grids, at, krows, lines, sums) },
         #[cfg(target_arch = "x86_64")]
-        // SAFETY: as above.
-        (RowSimd::Avx2Fma, 2) => unsafe {
-            let (x, y) = avx::dot2(grid, &krows[0][..n], &krows[1][..n]);
-            out[0] += x;
-            out[1] += y;
-        },
+        // SAFETY: Avx512 is only constructed after detecting AVX-512 F and VL; as above.
+        RowSimd::Avx512 => unsafe { avx512::dot(grids, at, krows, lines, sums) },
         _ => {
-            for (o, krow) in out.iter_mut().zip(krows) {
-                *o += grid.iter().zip(&krow[..n]).map(|(g, k)| g * k).sum::<Complex64>();
+            for (&g, s) in lines.iter().zip(sums.iter_mut()) {
+                let line = &grids[g][at..at + n];
+                for (h, krow) in krows.iter().enumerate() {
+                    for (x, k) in line.iter().zip(krow.iter()) {
+                        s.p[h][0] += x.re * k.re;
+                        s.p[h][1] += x.im * k.im;
+                        s.q[h][0] += x.re * k.im;
+                        s.q[h][1] += x.im * k.re;
+                    }
+                }
             }
         }
     }
@@ -140,18 +225,25 @@ pub(crate) fn dot_rows(
 
 #[cfg(target_arch = "x86_64")]
 mod avx {
+    use super::{LaneSums, LineTarget};
     use num_complex::{Complex32, Complex64};
     use std::arch::x86_64::*;
-
-    #[inline(always)]
-    unsafe fn pair(a: [f64; 2]) -> __m256d {
-        _mm256_setr_pd(a[0], a[1], a[0], a[1])
-    }
 
     /// Two single-precision complex numbers at `p` as four f64 lanes.
     #[inline(always)]
     unsafe fn load2(p: *const f32) -> __m256d {
         _mm256_cvtps_pd(_mm_loadu_ps(p))
+    }
+
+    #[inline(always)]
+    unsafe fn swap(x: __m256d) -> __m256d {
+        _mm256_permute_pd(x, 0b0101)
+    }
+
+    /// Lane constants (A, B) of d += conj(k) · v: A = (v_re, −v_re, …), B = (v_im, v_im, …).
+    #[inline(always)]
+    unsafe fn lanes(v: Complex64) -> (__m256d, __m256d) {
+        (_mm256_setr_pd(v.re, -v.re, v.re, -v.re), _mm256_set1_pd(v.im))
     }
 
     /// See [`super::bilinear_row`]. Safety: AVX2 and FMA present; equal lengths.
@@ -196,130 +288,259 @@ mod avx {
         }
     }
 
-    /// d += k ⊙ A + swap(k) ⊙ B over one row. Safety: AVX2 and FMA present; k.len() ≥ d.len().
+    /// See [`super::spread_row`]. Safety: AVX2 and FMA present; every kernel row has n values
+    /// and every target line n from `at` (checked by the caller).
     #[target_feature(enable = "avx2,fma")]
-    pub(super) unsafe fn accumulate1(
-        dst: &mut [Complex64],
-        k: &[Complex64],
-        a: [f64; 2],
-        b: [f64; 2],
+    pub(super) unsafe fn spread(
+        grids: &mut [&mut [Complex64]],
+        at: usize,
+        krows: &[&[Complex64]],
+        targets: &[LineTarget],
     ) {
-        let n = dst.len();
-        let (pd, pk) = (dst.as_mut_ptr() as *mut f64, k.as_ptr() as *const f64);
-        let (va, vb) = (pair(a), pair(b));
-        let mut e = 0;
-        while e + 4 <= 2 * n {
-            let kv = _mm256_loadu_pd(pk.add(e));
-            let mut d = _mm256_loadu_pd(pd.add(e));
-            d = _mm256_fmadd_pd(kv, va, d);
-            d = _mm256_fmadd_pd(_mm256_permute_pd(kv, 0b0101), vb, d);
-            _mm256_storeu_pd(pd.add(e), d);
-            e += 4;
-        }
-        if e < 2 * n {
-            let kv = _mm_loadu_pd(pk.add(e));
-            let mut d = _mm_loadu_pd(pd.add(e));
-            d = _mm_fmadd_pd(kv, _mm_setr_pd(a[0], a[1]), d);
-            d = _mm_fmadd_pd(_mm_permute_pd(kv, 0b01), _mm_setr_pd(b[0], b[1]), d);
-            _mm_storeu_pd(pd.add(e), d);
+        let n = krows[0].len();
+        let two = krows.len() == 2;
+        let p0 = krows[0].as_ptr() as *const f64;
+        let p1 = krows[krows.len() - 1].as_ptr() as *const f64;
+        for t in targets {
+            let pd = grids[t.grid].as_mut_ptr().add(at) as *mut f64;
+            let (a0, b0) = lanes(t.vals[0]);
+            let (a1, b1) = lanes(t.vals[1]);
+            let mut e = 0;
+            while e + 4 <= 2 * n {
+                let x0 = _mm256_loadu_pd(p0.add(e));
+                let mut d = _mm256_loadu_pd(pd.add(e));
+                d = _mm256_fmadd_pd(x0, a0, d);
+                d = _mm256_fmadd_pd(swap(x0), b0, d);
+                if two {
+                    let x1 = _mm256_loadu_pd(p1.add(e));
+                    d = _mm256_fmadd_pd(x1, a1, d);
+                    d = _mm256_fmadd_pd(swap(x1), b1, d);
+                }
+                _mm256_storeu_pd(pd.add(e), d);
+                e += 4;
+            }
+            if e < 2 * n {
+                let lo = |v: __m256d| _mm256_castpd256_pd128(v);
+                let x0 = _mm_loadu_pd(p0.add(e));
+                let mut d = _mm_loadu_pd(pd.add(e));
+                d = _mm_fmadd_pd(x0, lo(a0), d);
+                d = _mm_fmadd_pd(_mm_permute_pd(x0, 0b01), lo(b0), d);
+                if two {
+                    let x1 = _mm_loadu_pd(p1.add(e));
+                    d = _mm_fmadd_pd(x1, lo(a1), d);
+                    d = _mm_fmadd_pd(_mm_permute_pd(x1, 0b01), lo(b1), d);
+                }
+                _mm_storeu_pd(pd.add(e), d);
+            }
         }
     }
 
-    /// Two correlations sharing the grid row. Safety: as [`accumulate1`].
-    #[allow(clippy::too_many_arguments)]
+    /// See [`super::dot_row`] (lane sums in the first four of the eight lanes). Safety: as
+    /// [`spread`].
     #[target_feature(enable = "avx2,fma")]
-    pub(super) unsafe fn accumulate2(
-        dst: &mut [Complex64],
-        k0: &[Complex64],
-        a0: [f64; 2],
-        b0: [f64; 2],
-        k1: &[Complex64],
-        a1: [f64; 2],
-        b1: [f64; 2],
+    pub(super) unsafe fn dot(
+        grids: &[&[Complex64]],
+        at: usize,
+        krows: &[&[Complex64]],
+        lines: &[usize],
+        sums: &mut [LaneSums],
     ) {
-        let n = dst.len();
-        let pd = dst.as_mut_ptr() as *mut f64;
-        let (p0, p1) = (k0.as_ptr() as *const f64, k1.as_ptr() as *const f64);
-        let (va0, vb0, va1, vb1) = (pair(a0), pair(b0), pair(a1), pair(b1));
-        let mut e = 0;
-        while e + 4 <= 2 * n {
-            let (x0, x1) = (_mm256_loadu_pd(p0.add(e)), _mm256_loadu_pd(p1.add(e)));
-            let mut d = _mm256_loadu_pd(pd.add(e));
-            d = _mm256_fmadd_pd(x0, va0, d);
-            d = _mm256_fmadd_pd(_mm256_permute_pd(x0, 0b0101), vb0, d);
-            d = _mm256_fmadd_pd(x1, va1, d);
-            d = _mm256_fmadd_pd(_mm256_permute_pd(x1, 0b0101), vb1, d);
-            _mm256_storeu_pd(pd.add(e), d);
-            e += 4;
-        }
-        if e < 2 * n {
-            let i = e / 2;
-            accumulate1(&mut dst[i..], &k0[i..], a0, b0);
-            accumulate1(&mut dst[i..], &k1[i..], a1, b1);
+        let n = krows[0].len();
+        let two = krows.len() == 2;
+        let p0 = krows[0].as_ptr() as *const f64;
+        let p1 = krows[krows.len() - 1].as_ptr() as *const f64;
+        for (&g, s) in lines.iter().zip(sums.iter_mut()) {
+            let pg = grids[g].as_ptr().add(at) as *const f64;
+            let mut a = _mm256_loadu_pd(s.p[0].as_ptr());
+            let mut b = _mm256_loadu_pd(s.q[0].as_ptr());
+            let mut c = _mm256_loadu_pd(s.p[1].as_ptr());
+            let mut d = _mm256_loadu_pd(s.q[1].as_ptr());
+            let mut e = 0;
+            while e + 4 <= 2 * n {
+                let gv = _mm256_loadu_pd(pg.add(e));
+                let x0 = _mm256_loadu_pd(p0.add(e));
+                a = _mm256_fmadd_pd(gv, x0, a);
+                b = _mm256_fmadd_pd(gv, swap(x0), b);
+                if two {
+                    let x1 = _mm256_loadu_pd(p1.add(e));
+                    c = _mm256_fmadd_pd(gv, x1, c);
+                    d = _mm256_fmadd_pd(gv, swap(x1), d);
+                }
+                e += 4;
+            }
+            if e < 2 * n {
+                // The odd last cell in the low two lanes (the high two add zero).
+                let gv = _mm256_castpd128_pd256(_mm_loadu_pd(pg.add(e)));
+                let gv = _mm256_insertf128_pd(gv, _mm_setzero_pd(), 1);
+                let x0 = _mm256_insertf128_pd(
+                    _mm256_castpd128_pd256(_mm_loadu_pd(p0.add(e))),
+                    _mm_setzero_pd(),
+                    1,
+                );
+                a = _mm256_fmadd_pd(gv, x0, a);
+                b = _mm256_fmadd_pd(gv, swap(x0), b);
+                if two {
+                    let x1 = _mm256_insertf128_pd(
+                        _mm256_castpd128_pd256(_mm_loadu_pd(p1.add(e))),
+                        _mm_setzero_pd(),
+                        1,
+                    );
+                    c = _mm256_fmadd_pd(gv, x1, c);
+                    d = _mm256_fmadd_pd(gv, swap(x1), d);
+                }
+            }
+            _mm256_storeu_pd(s.p[0].as_mut_ptr(), a);
+            _mm256_storeu_pd(s.q[0].as_mut_ptr(), b);
+            _mm256_storeu_pd(s.p[1].as_mut_ptr(), c);
+            _mm256_storeu_pd(s.q[1].as_mut_ptr(), d);
         }
     }
+}
 
-    /// Horizontal (re, im) of the lane sums P = Σ g ⊙ k, Q = Σ g ⊙ swap(k):
-    /// re = P0 − P1 (+ P2 − P3), im = Q0 + Q1 (+ Q2 + Q3).
+#[cfg(target_arch = "x86_64")]
+mod avx512 {
+    //! The loops of [`super::avx`] on 512-bit vectors (four complex numbers per register); the
+    //! last partial register of a row is read and written through a lane mask, so no scalar
+    //! tail remains.
+    use super::{LaneSums, LineTarget};
+    use num_complex::{Complex32, Complex64};
+    use std::arch::x86_64::*;
+
+    /// Lanes of a row of `n` complex numbers (2n f64) from lane `e` on, as a mask of at most 8.
     #[inline(always)]
-    unsafe fn finish(p: __m256d, q: __m256d) -> Complex64 {
-        let mut pa = [0.0; 4];
-        let mut qa = [0.0; 4];
-        _mm256_storeu_pd(pa.as_mut_ptr(), p);
-        _mm256_storeu_pd(qa.as_mut_ptr(), q);
-        Complex64::new((pa[0] - pa[1]) + (pa[2] - pa[3]), (qa[0] + qa[1]) + (qa[2] + qa[3]))
+    fn tail(e: usize, n: usize) -> __mmask8 {
+        ((1u32 << (2 * n - e).min(8)) - 1) as __mmask8
     }
 
-    /// Σ g · k. Safety: AVX2 and FMA present; k.len() ≥ g.len().
-    #[target_feature(enable = "avx2,fma")]
-    pub(super) unsafe fn dot1(g: &[Complex64], k: &[Complex64]) -> Complex64 {
-        let n = g.len();
-        let (pg, pk) = (g.as_ptr() as *const f64, k.as_ptr() as *const f64);
-        let (mut p, mut q) = (_mm256_setzero_pd(), _mm256_setzero_pd());
-        let mut e = 0;
-        while e + 4 <= 2 * n {
-            let gv = _mm256_loadu_pd(pg.add(e));
-            let kv = _mm256_loadu_pd(pk.add(e));
-            p = _mm256_fmadd_pd(gv, kv, p);
-            q = _mm256_fmadd_pd(gv, _mm256_permute_pd(kv, 0b0101), q);
-            e += 4;
-        }
-        let mut s = finish(p, q);
-        if e < 2 * n {
-            s += g[e / 2] * k[e / 2];
-        }
-        s
+    /// Swap re and im within each complex lane pair.
+    #[inline(always)]
+    unsafe fn swap(x: __m512d) -> __m512d {
+        _mm512_permute_pd(x, 0b0101_0101)
     }
 
-    /// (Σ g · k0, Σ g · k1). Safety: as [`dot1`].
-    #[target_feature(enable = "avx2,fma")]
-    pub(super) unsafe fn dot2(
-        g: &[Complex64],
-        k0: &[Complex64],
-        k1: &[Complex64],
-    ) -> (Complex64, Complex64) {
-        let n = g.len();
-        let pg = g.as_ptr() as *const f64;
-        let (p0, p1) = (k0.as_ptr() as *const f64, k1.as_ptr() as *const f64);
-        let (mut a, mut b) = (_mm256_setzero_pd(), _mm256_setzero_pd());
-        let (mut c, mut d) = (_mm256_setzero_pd(), _mm256_setzero_pd());
+    /// Lane constants (A, B) of d += conj(k) · v: A = (v_re, −v_re, …), B = (v_im, v_im, …).
+    #[inline(always)]
+    unsafe fn lanes(v: Complex64) -> (__m512d, __m512d) {
+        let sign = _mm512_setr_pd(1.0, -1.0, 1.0, -1.0, 1.0, -1.0, 1.0, -1.0);
+        (_mm512_mul_pd(_mm512_set1_pd(v.re), sign), _mm512_set1_pd(v.im))
+    }
+
+    /// Up to four single-precision complex numbers at `p` (lanes in `m`) as eight f64 lanes.
+    #[inline(always)]
+    unsafe fn load4(p: *const f32, m: __mmask8) -> __m512d {
+        _mm512_cvtps_pd(_mm256_maskz_loadu_ps(m, p))
+    }
+
+    /// See [`super::bilinear_row`]. Safety: AVX-512 F and VL present; equal lengths.
+    #[target_feature(enable = "avx512f,avx512vl")]
+    pub(super) unsafe fn bilinear(
+        out: &mut [Complex64],
+        a: &[Complex32],
+        b: &[Complex32],
+        c: &[Complex32],
+        d: &[Complex32],
+        w: [f64; 4],
+    ) {
+        let n = out.len();
+        let (po, pa, pb, pc, pd) = (
+            out.as_mut_ptr() as *mut f64,
+            a.as_ptr() as *const f32,
+            b.as_ptr() as *const f32,
+            c.as_ptr() as *const f32,
+            d.as_ptr() as *const f32,
+        );
+        let (w0, w1, w2, w3) = (
+            _mm512_set1_pd(w[0]),
+            _mm512_set1_pd(w[1]),
+            _mm512_set1_pd(w[2]),
+            _mm512_set1_pd(w[3]),
+        );
         let mut e = 0;
-        while e + 4 <= 2 * n {
-            let gv = _mm256_loadu_pd(pg.add(e));
-            let (x0, x1) = (_mm256_loadu_pd(p0.add(e)), _mm256_loadu_pd(p1.add(e)));
-            a = _mm256_fmadd_pd(gv, x0, a);
-            b = _mm256_fmadd_pd(gv, _mm256_permute_pd(x0, 0b0101), b);
-            c = _mm256_fmadd_pd(gv, x1, c);
-            d = _mm256_fmadd_pd(gv, _mm256_permute_pd(x1, 0b0101), d);
-            e += 4;
+        while e < 2 * n {
+            let m = tail(e, n);
+            let mut s = _mm512_mul_pd(load4(pa.add(e), m), w0);
+            s = _mm512_fmadd_pd(load4(pb.add(e), m), w1, s);
+            s = _mm512_fmadd_pd(load4(pc.add(e), m), w2, s);
+            s = _mm512_fmadd_pd(load4(pd.add(e), m), w3, s);
+            _mm512_mask_storeu_pd(po.add(e), m, s);
+            e += 8;
         }
-        let (mut s0, mut s1) = (finish(a, b), finish(c, d));
-        if e < 2 * n {
-            let i = e / 2;
-            s0 += g[i] * k0[i];
-            s1 += g[i] * k1[i];
+    }
+
+    /// See [`super::spread_row`]. Safety: AVX-512 F and VL present; every kernel row has n
+    /// values and every target line n from `at` (checked by the caller).
+    #[target_feature(enable = "avx512f,avx512vl")]
+    pub(super) unsafe fn spread(
+        grids: &mut [&mut [Complex64]],
+        at: usize,
+        krows: &[&[Complex64]],
+        targets: &[LineTarget],
+    ) {
+        let n = krows[0].len();
+        let two = krows.len() == 2;
+        let p0 = krows[0].as_ptr() as *const f64;
+        let p1 = krows[krows.len() - 1].as_ptr() as *const f64;
+        for t in targets {
+            let pd = grids[t.grid].as_mut_ptr().add(at) as *mut f64;
+            let (a0, b0) = lanes(t.vals[0]);
+            let (a1, b1) = lanes(t.vals[1]);
+            let mut e = 0;
+            while e < 2 * n {
+                let m = tail(e, n);
+                let x0 = _mm512_maskz_loadu_pd(m, p0.add(e));
+                let mut d = _mm512_maskz_loadu_pd(m, pd.add(e));
+                d = _mm512_fmadd_pd(x0, a0, d);
+                d = _mm512_fmadd_pd(swap(x0), b0, d);
+                if two {
+                    let x1 = _mm512_maskz_loadu_pd(m, p1.add(e));
+                    d = _mm512_fmadd_pd(x1, a1, d);
+                    d = _mm512_fmadd_pd(swap(x1), b1, d);
+                }
+                _mm512_mask_storeu_pd(pd.add(e), m, d);
+                e += 8;
+            }
         }
-        (s0, s1)
+    }
+
+    /// See [`super::dot_row`]. Safety: as [`spread`].
+    #[target_feature(enable = "avx512f,avx512vl")]
+    pub(super) unsafe fn dot(
+        grids: &[&[Complex64]],
+        at: usize,
+        krows: &[&[Complex64]],
+        lines: &[usize],
+        sums: &mut [LaneSums],
+    ) {
+        let n = krows[0].len();
+        let two = krows.len() == 2;
+        let p0 = krows[0].as_ptr() as *const f64;
+        let p1 = krows[krows.len() - 1].as_ptr() as *const f64;
+        for (&g, s) in lines.iter().zip(sums.iter_mut()) {
+            let pg = grids[g].as_ptr().add(at) as *const f64;
+            let mut a = _mm512_loadu_pd(s.p[0].as_ptr());
+            let mut b = _mm512_loadu_pd(s.q[0].as_ptr());
+            let mut c = _mm512_loadu_pd(s.p[1].as_ptr());
+            let mut d = _mm512_loadu_pd(s.q[1].as_ptr());
+            let mut e = 0;
+            while e < 2 * n {
+                // Masked-off lanes load as zero and add nothing.
+                let m = tail(e, n);
+                let gv = _mm512_maskz_loadu_pd(m, pg.add(e));
+                let x0 = _mm512_maskz_loadu_pd(m, p0.add(e));
+                a = _mm512_fmadd_pd(gv, x0, a);
+                b = _mm512_fmadd_pd(gv, swap(x0), b);
+                if two {
+                    let x1 = _mm512_maskz_loadu_pd(m, p1.add(e));
+                    c = _mm512_fmadd_pd(gv, x1, c);
+                    d = _mm512_fmadd_pd(gv, swap(x1), d);
+                }
+                e += 8;
+            }
+            _mm512_storeu_pd(s.p[0].as_mut_ptr(), a);
+            _mm512_storeu_pd(s.q[0].as_mut_ptr(), b);
+            _mm512_storeu_pd(s.p[1].as_mut_ptr(), c);
+            _mm512_storeu_pd(s.q[1].as_mut_ptr(), d);
+        }
     }
 }
 
@@ -338,37 +559,72 @@ mod tests {
     #[test]
     fn vector_paths_match_the_complex_arithmetic() {
         // Reference: the textbook complex product and sum on Complex64, element by element.
-        // Lengths 1..=9 cover the 2-wide body and the odd tail; 1e-14 is rounding (FMA
-        // changes the last bit of products of O(1) numbers summed over ≤ 9 terms).
-        for simd in [RowSimd::Scalar, RowSimd::detect()] {
-            for n in 1..=9 {
-                let (k0, k1, g) = (values(n, 0.1), values(n, 0.7), values(n, 1.9));
+        // Every implementation this CPU has is checked; lengths 1..=19 cover the 2- and 4-wide
+        // bodies with every tail (odd, and 1..3 left of a 512-bit register), two lines per
+        // call at different offsets, and sums carried over from an earlier row. Spreading
+        // adds at most five terms per value, so 1e-14 is rounding (FMA changes the last bit);
+        // the dot products use the textbook rounding bound below.
+        for simd in RowSimd::supported() {
+            for n in 1..=19 {
+                let (k0, k1) = (values(n, 0.1), values(n, 0.7));
+                // Two grids of 2n + 3 values; the row goes to offset `at` of each.
+                let at = 3;
+                let grid_a = values(2 * n + 3, 1.9);
+                let grid_b = values(2 * n + 3, 2.3);
                 let v = [Complex64::new(0.3, -1.2), Complex64::new(-0.8, 0.4)];
+                let w = [Complex64::new(-0.5, 0.25), Complex64::new(1.1, 0.6)];
                 for h in 1..=2 {
                     let krows: Vec<&[Complex64]> = [&k0[..], &k1[..]][..h].to_vec();
-                    let mut d = g.clone();
-                    accumulate_conj(simd, &mut d, &krows, &v[..h]);
-                    let mut out = [Complex64::new(0.0, 0.0); 2];
-                    dot_rows(simd, &g, &krows, &mut out);
-                    for i in 0..n {
-                        let mut want = g[i];
-                        for (kr, vv) in krows.iter().zip(&v) {
-                            want += kr[i].conj() * vv;
+                    let (mut ga, mut gb) = (grid_a.clone(), grid_b.clone());
+                    let targets = [
+                        LineTarget { grid: 1, vals: v },
+                        LineTarget { grid: 0, vals: w },
+                        LineTarget { grid: 1, vals: w },
+                    ];
+                    spread_row(simd, &mut [&mut ga[..], &mut gb[..]], at, &krows, &targets);
+                    for i in 0..2 * n + 3 {
+                        let (mut want_a, mut want_b) = (grid_a[i], grid_b[i]);
+                        if (at..at + n).contains(&i) {
+                            for (hh, kr) in krows.iter().enumerate() {
+                                let k = kr[i - at].conj();
+                                want_a += k * w[hh];
+                                want_b += k * v[hh] + k * w[hh];
+                            }
                         }
-                        assert!((d[i] - want).norm() < 1e-14, "{simd:?} n={n} h={h}");
+                        assert!((ga[i] - want_a).norm() < 1e-14, "{simd:?} n={n} h={h} a");
+                        assert!((gb[i] - want_b).norm() < 1e-14, "{simd:?} n={n} h={h} b");
                     }
-                    for (o, kr) in out.iter().zip(&krows).take(h) {
-                        let want: Complex64 = g.iter().zip(kr.iter()).map(|(a, b)| a * b).sum();
-                        assert!((o - want).norm() < 1e-14, "{simd:?} n={n} h={h}");
+                    // Two rows into the same sums (offsets at and at + 1), lines (1, 0).
+                    let grids = [&grid_a[..], &grid_b[..]];
+                    let mut sums = [LaneSums::default(); 2];
+                    dot_row(simd, &grids, at, &krows, &[1, 0], &mut sums);
+                    dot_row(simd, &grids, at + 1, &krows, &[1, 0], &mut sums);
+                    for (line, s) in [(&grid_b, &sums[0]), (&grid_a, &sums[1])] {
+                        for (hh, kr) in krows.iter().enumerate() {
+                            let want: Complex64 = (0..n)
+                                .map(|i| line[at + i] * kr[i] + line[at + 1 + i] * kr[i])
+                                .sum();
+                            // Rounding bound of a dot product of m real terms, m u Σ|x||y|
+                            // (Higham, Accuracy and Stability of Numerical Algorithms, 2nd
+                            // ed., §3.1), with m = 4 · 2n real products per complex sum.
+                            let scale: f64 = (0..n)
+                                .map(|i| {
+                                    (line[at + i].norm() + line[at + 1 + i].norm()) * kr[i].norm()
+                                })
+                                .sum();
+                            let bound = 8.0 * n as f64 * f64::EPSILON * 2.0 * scale;
+                            let err = (s.value(hh) - want).norm();
+                            assert!(err < bound, "{simd:?} n={n} h={h}: {err:e} ≥ {bound:e}");
+                        }
                     }
                 }
                 let mut out = vec![Complex64::new(0.0, 0.0); n];
-                let w = [0.1, 0.2, 0.3, 0.4];
+                let wts = [0.1, 0.2, 0.3, 0.4];
                 let narrow = |v: &[Complex64]| -> Vec<Complex32> {
                     v.iter().map(|c| Complex32::new(c.re as f32, c.im as f32)).collect()
                 };
-                let (a, b, c) = (narrow(&k0), narrow(&k1), narrow(&g));
-                bilinear_row(simd, &mut out, [&a, &b, &c, &a], w);
+                let (a, b, c) = (narrow(&k0), narrow(&k1), narrow(&grid_a[..n]));
+                bilinear_row(simd, &mut out, [&a, &b, &c, &a], wts);
                 for i in 0..n {
                     let want =
                         wide(a[i]) * 0.1 + wide(b[i]) * 0.2 + wide(c[i]) * 0.3 + wide(a[i]) * 0.4;
