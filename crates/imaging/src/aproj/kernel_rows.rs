@@ -5,12 +5,12 @@
 //!
 //! One call takes a kernel row to *every* line it updates or reads (one per w plane and
 //! image), so the per-call set-up (lane constants, bounds, dispatch) is paid once per row and
-//! not once per line; on the w-stacked benchmark that set-up had cost about a third of the
-//! spreading time.
+//! not once per line (on the w-stacked benchmark this cut the gridding time by a quarter).
 //!
-//! Each loop has a scalar path, an AVX2 + FMA path and an AVX-512 path picked at run time
-//! ([`RowSimd::detect`]). The vector forms keep the complex numbers interleaved (re, im) and
-//! write a complex product d += k · v as two real fused multiply-adds over f64 lanes,
+//! Each loop has a scalar path and an AVX2 + FMA path picked at run time ([`RowSimd::detect`]).
+//! 512-bit versions were measured and gave nothing: with one w plane the loops wait on the
+//! kernel tables, with several on the grid lines, not on arithmetic. The vector forms keep the
+//! complex numbers interleaved (re, im) and write a complex product d += k · v as two real fused multiply-adds over f64 lanes,
 //! d += k ⊙ A + swap(k) ⊙ B, with swap(k) = (k_im, k_re), A = (v_re, −v_re, …) and
 //! B = (v_im, v_im, …) for d += conj(k) · v — no shuffles of the grid. Dot products keep lane
 //! sums ([`LaneSums`]) across the rows of a footprint and reduce them once.
@@ -23,9 +23,6 @@ pub(crate) enum RowSimd {
     Scalar,
     /// 256-bit AVX2 with FMA (x86-64 only, checked at run time).
     Avx2Fma,
-    /// 512-bit AVX-512 (F and VL; x86-64 only, checked at run time): twice the lanes of
-    /// [`RowSimd::Avx2Fma`] and masked loads and stores for the odd tail of a row.
-    Avx512,
 }
 
 impl RowSimd {
@@ -33,11 +30,6 @@ impl RowSimd {
     pub(crate) fn detect() -> Self {
         #[cfg(target_arch = "x86_64")]
         {
-            if std::arch::is_x86_feature_detected!("avx512f")
-                && std::arch::is_x86_feature_detected!("avx512vl")
-            {
-                return Self::Avx512;
-            }
             if std::arch::is_x86_feature_detected!("avx2")
                 && std::arch::is_x86_feature_detected!("fma")
             {
@@ -57,11 +49,6 @@ impl RowSimd {
                 && std::arch::is_x86_feature_detected!("fma")
             {
                 all.push(Self::Avx2Fma);
-            }
-            if std::arch::is_x86_feature_detected!("avx512f")
-                && std::arch::is_x86_feature_detected!("avx512vl")
-            {
-                all.push(Self::Avx512);
             }
         }
         all
@@ -90,9 +77,6 @@ pub(crate) fn bilinear_row(
         // SAFETY: Avx2Fma is only ever constructed after detecting AVX2 and FMA; all slices
         // have length n (checked by the slicing above).
         RowSimd::Avx2Fma => unsafe { avx::bilinear(out, a, b, c, d, w) },
-        #[cfg(target_arch = "x86_64")]
-        // SAFETY: Avx512 is only constructed after detecting AVX-512 F and VL; equal lengths.
-        RowSimd::Avx512 => unsafe { avx512::bilinear(out, a, b, c, d, w) },
         _ => {
             for i in 0..n {
                 out[i] =
@@ -144,9 +128,6 @@ pub(crate) fn spread_row(
         // SAFETY: Avx2Fma is only constructed after detecting AVX2 and FMA; lengths checked
         // above.
         RowSimd::Avx2Fma => unsafe { avx::spread(grids, at, krows, targets) },
-        #[cfg(target_arch = "x86_64")]
-        // SAFETY: Avx512 is only constructed after detecting AVX-512 F and VL; as above.
-        RowSimd::Avx512 => unsafe { avx512::spread(grids, at, krows, targets) },
         _ => {
             for t in targets {
                 let line = &mut grids[t.grid][at..at + n];
@@ -166,15 +147,15 @@ pub(crate) fn spread_row(
 /// Σ g · k = (Σ P_even − Σ P_odd) + i Σ Q. Start from `LaneSums::default()` (zero).
 #[derive(Clone, Copy, Debug, Default)]
 pub(crate) struct LaneSums {
-    p: [[f64; 8]; 2],
-    q: [[f64; 8]; 2],
+    p: [[f64; 4]; 2],
+    q: [[f64; 4]; 2],
 }
 
 impl LaneSums {
     /// Σ g · k of hand `h`.
     pub(crate) fn value(&self, h: usize) -> Complex64 {
         let (p, q) = (&self.p[h], &self.q[h]);
-        let re = (p[0] - p[1]) + (p[2] - p[3]) + ((p[4] - p[5]) + (p[6] - p[7]));
+        let re = (p[0] - p[1]) + (p[2] - p[3]);
         Complex64::new(re, q.iter().sum())
     }
 }
@@ -204,9 +185,6 @@ pub(crate) fn dot_row(
         // SAFETY: Avx2Fma is only constructed after detecting AVX2 and FMA; lengths checked
         // above.
         RowSimd::Avx2Fma => unsafe { avx::dot(grids, at, krows, lines, sums) },
-        #[cfg(target_arch = "x86_64")]
-        // SAFETY: Avx512 is only constructed after detecting AVX-512 F and VL; as above.
-        RowSimd::Avx512 => unsafe { avx512::dot(grids, at, krows, lines, sums) },
         _ => {
             for (&g, s) in lines.iter().zip(sums.iter_mut()) {
                 let line = &grids[g][at..at + n];
@@ -335,7 +313,7 @@ mod avx {
         }
     }
 
-    /// See [`super::dot_row`] (lane sums in the first four of the eight lanes). Safety: as
+    /// See [`super::dot_row`]. Safety: as
     /// [`spread`].
     #[target_feature(enable = "avx2,fma")]
     pub(super) unsafe fn dot(
@@ -397,153 +375,6 @@ mod avx {
     }
 }
 
-#[cfg(target_arch = "x86_64")]
-mod avx512 {
-    //! The loops of [`super::avx`] on 512-bit vectors (four complex numbers per register); the
-    //! last partial register of a row is read and written through a lane mask, so no scalar
-    //! tail remains.
-    use super::{LaneSums, LineTarget};
-    use num_complex::{Complex32, Complex64};
-    use std::arch::x86_64::*;
-
-    /// Lanes of a row of `n` complex numbers (2n f64) from lane `e` on, as a mask of at most 8.
-    #[inline(always)]
-    fn tail(e: usize, n: usize) -> __mmask8 {
-        ((1u32 << (2 * n - e).min(8)) - 1) as __mmask8
-    }
-
-    /// Swap re and im within each complex lane pair.
-    #[inline(always)]
-    unsafe fn swap(x: __m512d) -> __m512d {
-        _mm512_permute_pd(x, 0b0101_0101)
-    }
-
-    /// Lane constants (A, B) of d += conj(k) · v: A = (v_re, −v_re, …), B = (v_im, v_im, …).
-    #[inline(always)]
-    unsafe fn lanes(v: Complex64) -> (__m512d, __m512d) {
-        let sign = _mm512_setr_pd(1.0, -1.0, 1.0, -1.0, 1.0, -1.0, 1.0, -1.0);
-        (_mm512_mul_pd(_mm512_set1_pd(v.re), sign), _mm512_set1_pd(v.im))
-    }
-
-    /// Up to four single-precision complex numbers at `p` (lanes in `m`) as eight f64 lanes.
-    #[inline(always)]
-    unsafe fn load4(p: *const f32, m: __mmask8) -> __m512d {
-        _mm512_cvtps_pd(_mm256_maskz_loadu_ps(m, p))
-    }
-
-    /// See [`super::bilinear_row`]. Safety: AVX-512 F and VL present; equal lengths.
-    #[target_feature(enable = "avx512f,avx512vl")]
-    pub(super) unsafe fn bilinear(
-        out: &mut [Complex64],
-        a: &[Complex32],
-        b: &[Complex32],
-        c: &[Complex32],
-        d: &[Complex32],
-        w: [f64; 4],
-    ) {
-        let n = out.len();
-        let (po, pa, pb, pc, pd) = (
-            out.as_mut_ptr() as *mut f64,
-            a.as_ptr() as *const f32,
-            b.as_ptr() as *const f32,
-            c.as_ptr() as *const f32,
-            d.as_ptr() as *const f32,
-        );
-        let (w0, w1, w2, w3) = (
-            _mm512_set1_pd(w[0]),
-            _mm512_set1_pd(w[1]),
-            _mm512_set1_pd(w[2]),
-            _mm512_set1_pd(w[3]),
-        );
-        let mut e = 0;
-        while e < 2 * n {
-            let m = tail(e, n);
-            let mut s = _mm512_mul_pd(load4(pa.add(e), m), w0);
-            s = _mm512_fmadd_pd(load4(pb.add(e), m), w1, s);
-            s = _mm512_fmadd_pd(load4(pc.add(e), m), w2, s);
-            s = _mm512_fmadd_pd(load4(pd.add(e), m), w3, s);
-            _mm512_mask_storeu_pd(po.add(e), m, s);
-            e += 8;
-        }
-    }
-
-    /// See [`super::spread_row`]. Safety: AVX-512 F and VL present; every kernel row has n
-    /// values and every target line n from `at` (checked by the caller).
-    #[target_feature(enable = "avx512f,avx512vl")]
-    pub(super) unsafe fn spread(
-        grids: &mut [&mut [Complex64]],
-        at: usize,
-        krows: &[&[Complex64]],
-        targets: &[LineTarget],
-    ) {
-        let n = krows[0].len();
-        let two = krows.len() == 2;
-        let p0 = krows[0].as_ptr() as *const f64;
-        let p1 = krows[krows.len() - 1].as_ptr() as *const f64;
-        for t in targets {
-            let pd = grids[t.grid].as_mut_ptr().add(at) as *mut f64;
-            let (a0, b0) = lanes(t.vals[0]);
-            let (a1, b1) = lanes(t.vals[1]);
-            let mut e = 0;
-            while e < 2 * n {
-                let m = tail(e, n);
-                let x0 = _mm512_maskz_loadu_pd(m, p0.add(e));
-                let mut d = _mm512_maskz_loadu_pd(m, pd.add(e));
-                d = _mm512_fmadd_pd(x0, a0, d);
-                d = _mm512_fmadd_pd(swap(x0), b0, d);
-                if two {
-                    let x1 = _mm512_maskz_loadu_pd(m, p1.add(e));
-                    d = _mm512_fmadd_pd(x1, a1, d);
-                    d = _mm512_fmadd_pd(swap(x1), b1, d);
-                }
-                _mm512_mask_storeu_pd(pd.add(e), m, d);
-                e += 8;
-            }
-        }
-    }
-
-    /// See [`super::dot_row`]. Safety: as [`spread`].
-    #[target_feature(enable = "avx512f,avx512vl")]
-    pub(super) unsafe fn dot(
-        grids: &[&[Complex64]],
-        at: usize,
-        krows: &[&[Complex64]],
-        lines: &[usize],
-        sums: &mut [LaneSums],
-    ) {
-        let n = krows[0].len();
-        let two = krows.len() == 2;
-        let p0 = krows[0].as_ptr() as *const f64;
-        let p1 = krows[krows.len() - 1].as_ptr() as *const f64;
-        for (&g, s) in lines.iter().zip(sums.iter_mut()) {
-            let pg = grids[g].as_ptr().add(at) as *const f64;
-            let mut a = _mm512_loadu_pd(s.p[0].as_ptr());
-            let mut b = _mm512_loadu_pd(s.q[0].as_ptr());
-            let mut c = _mm512_loadu_pd(s.p[1].as_ptr());
-            let mut d = _mm512_loadu_pd(s.q[1].as_ptr());
-            let mut e = 0;
-            while e < 2 * n {
-                // Masked-off lanes load as zero and add nothing.
-                let m = tail(e, n);
-                let gv = _mm512_maskz_loadu_pd(m, pg.add(e));
-                let x0 = _mm512_maskz_loadu_pd(m, p0.add(e));
-                a = _mm512_fmadd_pd(gv, x0, a);
-                b = _mm512_fmadd_pd(gv, swap(x0), b);
-                if two {
-                    let x1 = _mm512_maskz_loadu_pd(m, p1.add(e));
-                    c = _mm512_fmadd_pd(gv, x1, c);
-                    d = _mm512_fmadd_pd(gv, swap(x1), d);
-                }
-                e += 8;
-            }
-            _mm512_storeu_pd(s.p[0].as_mut_ptr(), a);
-            _mm512_storeu_pd(s.q[0].as_mut_ptr(), b);
-            _mm512_storeu_pd(s.p[1].as_mut_ptr(), c);
-            _mm512_storeu_pd(s.q[1].as_mut_ptr(), d);
-        }
-    }
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -559,8 +390,8 @@ mod tests {
     #[test]
     fn vector_paths_match_the_complex_arithmetic() {
         // Reference: the textbook complex product and sum on Complex64, element by element.
-        // Every implementation this CPU has is checked; lengths 1..=19 cover the 2- and 4-wide
-        // bodies with every tail (odd, and 1..3 left of a 512-bit register), two lines per
+        // Every implementation this CPU has is checked; lengths 1..=19 cover the 2-wide body
+        // and the odd tail, several registers per row, two lines per
         // call at different offsets, and sums carried over from an earlier row. Spreading
         // adds at most five terms per value, so 1e-14 is rounding (FMA changes the last bit);
         // the dot products use the textbook rounding bound below.
