@@ -94,6 +94,17 @@ pub(crate) fn widen_row(out: &mut [Complex64], a: &[Complex32]) {
     }
 }
 
+/// The common length n of one or two kernel rows (one per hand); panics otherwise.
+#[inline]
+fn row_length(krows: &[&[Complex64]]) -> usize {
+    let n = krows.first().map_or(0, |k| k.len());
+    assert!(
+        (1..=2).contains(&krows.len()) && krows.iter().all(|k| k.len() == n),
+        "one or two kernel rows of equal length"
+    );
+    n
+}
+
 /// One grid line that a kernel row is spread into: the buffer it lives in, and the sample's
 /// value per hand for that line (plane weight and image factor applied; the second unused
 /// with one correlation).
@@ -114,11 +125,7 @@ pub(crate) fn spread_row(
     krows: &[&[Complex64]],
     targets: &[LineTarget],
 ) {
-    let n = krows[0].len();
-    assert!(
-        (1..=2).contains(&krows.len()) && krows.iter().all(|k| k.len() == n),
-        "one or two kernel rows of equal length"
-    );
+    let n = row_length(krows);
     // Every line is checked once here, so that the vector loops may write n values from `at`.
     for t in targets {
         assert!(at + n <= grids[t.grid].len(), "line {} too short", t.grid);
@@ -171,11 +178,7 @@ pub(crate) fn dot_row(
     lines: &[usize],
     sums: &mut [LaneSums],
 ) {
-    let n = krows[0].len();
-    assert!(
-        (1..=2).contains(&krows.len()) && krows.iter().all(|k| k.len() == n),
-        "one or two kernel rows of equal length"
-    );
+    let n = row_length(krows);
     assert!(sums.len() >= lines.len(), "one running sum per line");
     for &g in lines {
         assert!(at + n <= grids[g].len(), "line {g} too short");
@@ -313,8 +316,7 @@ mod avx {
         }
     }
 
-    /// See [`super::dot_row`]. Safety: as
-    /// [`spread`].
+    /// See [`super::dot_row`]. Safety: as [`spread`].
     #[target_feature(enable = "avx2,fma")]
     pub(super) unsafe fn dot(
         grids: &[&[Complex64]],
