@@ -81,20 +81,40 @@ impl GridPool {
 /// which is zero already, so it is not written here at all, and pages the caller never touches
 /// (the grid rows no sample reaches) are never mapped.
 pub(crate) fn fresh_grid(len: usize) -> Vec<Complex64> {
-    let bytes = len * std::mem::size_of::<Complex64>();
+    fresh_zeroed(len)
+}
+
+/// Types whose all-zero bytes are a valid value (zero).
+///
+/// # Safety
+/// Implement only for types where every all-zero bit pattern is a valid value.
+pub(crate) unsafe trait ZeroBits: Copy {}
+// SAFETY: all-zero bytes are 0 for the integers, +0.0 for f64 and 0.0 + 0.0i for Complex64.
+unsafe impl ZeroBits for usize {}
+// SAFETY: as above.
+unsafe impl ZeroBits for u32 {}
+// SAFETY: as above.
+unsafe impl ZeroBits for f64 {}
+// SAFETY: as above.
+unsafe impl ZeroBits for Complex64 {}
+
+/// A new all-zero buffer of `len` values on 2 MiB pages where the system allows it (see
+/// [`fresh_grid`]).
+pub(crate) fn fresh_zeroed<T: ZeroBits>(len: usize) -> Vec<T> {
+    let bytes = len * std::mem::size_of::<T>();
     if bytes == 0 {
         return Vec::new();
     }
-    let layout = std::alloc::Layout::array::<Complex64>(len).expect("buffer size fits in memory");
+    let layout = std::alloc::Layout::array::<T>(len).expect("buffer size fits in memory");
     // SAFETY: the layout has a non-zero size (checked above).
-    let ptr = unsafe { std::alloc::alloc_zeroed(layout) }.cast::<Complex64>();
+    let ptr = unsafe { std::alloc::alloc_zeroed(layout) }.cast::<T>();
     if ptr.is_null() {
         std::alloc::handle_alloc_error(layout);
     }
     advise_huge_pages(ptr.cast(), bytes);
-    // SAFETY: `ptr` was allocated by the global allocator with the layout of `len` values of
-    // Complex64 (so capacity `len`), and all-zero bytes are a valid Complex64 (0.0 + 0.0i), so
-    // all `len` values are initialised.
+    // SAFETY: `ptr` was allocated by the global allocator with the layout of `len` values of T
+    // (so capacity `len`), and all-zero bytes are a valid T (`ZeroBits`), so all `len` values
+    // are initialised.
     unsafe { Vec::from_raw_parts(ptr, len, len) }
 }
 

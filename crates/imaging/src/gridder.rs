@@ -57,36 +57,6 @@ fn floor_i64(x: f64) -> i64 {
     }
 }
 
-/// Splits a sample index i = row · n + channel into (row, channel) without a divide
-/// instruction (tens of cycles, once or twice per sample in the innermost passes): the quotient
-/// estimated with the rounded reciprocal of n is off by at most one for i < 2^52, and is then
-/// corrected exactly.
-#[derive(Clone, Copy, Debug)]
-pub(crate) struct RowSplit {
-    n: usize,
-    inverse: f64,
-}
-
-impl RowSplit {
-    pub(crate) fn new(n: usize) -> Self {
-        assert!(n > 0, "a visibility set has at least one channel");
-        Self { n, inverse: 1.0 / n as f64 }
-    }
-
-    /// (i / n, i % n).
-    #[inline(always)]
-    pub(crate) fn split(&self, i: usize) -> (usize, usize) {
-        debug_assert!(i < 1 << 52);
-        let mut r = (i as f64 * self.inverse) as usize;
-        if r * self.n > i {
-            r -= 1;
-        } else if (r + 1) * self.n <= i {
-            r += 1;
-        }
-        (r, i - r * self.n)
-    }
-}
-
 /// Where the samples of a visibility set fall on the padded grid and the w planes: sample
 /// i = row · n_chan + chan sits at fractional cell (s_x, s_y) = (u x_scale, v y_scale) and plane
 /// coordinate (w ν/c − w0)/Δw, with uvw in metres.
@@ -97,7 +67,6 @@ struct Samples<'a> {
     /// uvw rows in metres, row-major (row · 3 + axis).
     uvw: Cow<'a, [f64]>,
     n_chan: usize,
-    rows: RowSplit,
     /// b of the keys.
     shift: u32,
     /// Per channel: −ν/c · cell · pad_nx, ν/c · cell · pad_ny and ν/c.
@@ -118,19 +87,11 @@ impl<'a> Samples<'a> {
         Self {
             uvw,
             n_chan: vis.n_channels(),
-            rows: RowSplit::new(vis.n_channels()),
             shift: vis.n_channels().next_power_of_two().trailing_zeros(),
             x_scale: per_lambda.iter().map(|s| -s * cell * plan.pad_nx as f64).collect(),
             y_scale: per_lambda.iter().map(|s| s * cell * plan.pad_ny as f64).collect(),
             per_lambda,
         }
-    }
-
-    /// Key of sample i.
-    #[inline(always)]
-    fn key(&self, i: usize) -> usize {
-        let (r, c) = self.rows.split(i);
-        (r << self.shift) | c
     }
 
     /// Row and channel of the sample with key `key`.
@@ -187,38 +148,44 @@ impl GridPlan {
         }
     }
 
-    /// Every sample of `vis` for which `keep(sample)` holds and that touches a plane, sorted by
-    /// tile.
-    fn layout(
-        &self,
-        samples: &Samples,
-        n_rows: usize,
-        keep: impl Fn(usize) -> bool + Sync,
-    ) -> Layout {
+    /// Every sample of `vis` that touches a plane, sorted by tile. (Samples whose values are
+    /// zero are placed too: testing them here would read every value once more, and the
+    /// spreading skips them anyway.)
+    fn layout(&self, samples: &Samples, n_rows: usize) -> Layout {
+        /// Rows per task of the tile pass.
+        const ROWS: usize = 512;
         let map = TileMap::new(self.pad_nx, self.pad_ny);
         let nc = samples.n_chan;
+        let keys_per_row = 1 << samples.shift;
         let half = 0.5 * self.kernel.support() as f64;
-        let mut tiles = vec![NO_TILE; n_rows * nc];
-        tiles.par_chunks_mut(nc).enumerate().for_each(|(r, t)| {
-            for (c, t) in t.iter_mut().enumerate() {
-                let i = r * nc + c;
-                if !keep(i) {
+        // Indexed by key: the slots of channels nc..2^b of every row stay NO_TILE.
+        let mut tiles = vec![NO_TILE; n_rows * keys_per_row];
+        tiles.par_chunks_mut(ROWS * keys_per_row).enumerate().for_each(|(chunk, t)| {
+            for (r, t) in (chunk * ROWS..).zip(t.chunks_exact_mut(keys_per_row)) {
+                let t = &mut t[..nc];
+                if self.planes.is_none() {
+                    // `Samples::at` without planes, with the row's u and v loaded once.
+                    let (u, v) = (samples.uvw[3 * r], samples.uvw[3 * r + 1]);
+                    for ((t, &xs), &ys) in t.iter_mut().zip(&samples.x_scale).zip(&samples.y_scale)
+                    {
+                        let (sx, sy) = (u * xs, v * ys);
+                        let (sx, sy) = if self.fold && sy < 0.0 { (-sx, -sy) } else { (sx, sy) };
+                        *t = map.tile_of(ceil_i64(sx - half), ceil_i64(sy - half));
+                    }
                     continue;
                 }
-                let (_, sx, sy, w, _) = samples.at(self, (r << samples.shift) | c);
-                if self.plane_span(w).1 > 0 {
-                    // The same first cell as the polynomial taps compute: ⌈s − W/2⌉.
-                    *t = map.tile_of(ceil_i64(sx - half), ceil_i64(sy - half));
+                for (c, t) in t.iter_mut().enumerate() {
+                    let (_, sx, sy, w, _) = samples.at(self, (r << samples.shift) | c);
+                    if self.plane_span(w).1 > 0 {
+                        // The same first cell as the polynomial taps compute: ⌈s − W/2⌉.
+                        *t = map.tile_of(ceil_i64(sx - half), ceil_i64(sy - half));
+                    }
                 }
             }
         });
-        Layout::new(
-            &tiles,
-            map,
-            self.n_w_planes(),
-            |i| samples.key(i),
-            |key| self.plane_span(samples.at(self, key).3).0 as u32,
-        )
+        Layout::new(&tiles, map, self.n_w_planes(), |key| {
+            self.plane_span(samples.at(self, key).3).0 as u32
+        })
     }
 
     fn check_w(&self, vis: &VisSet) -> Result<(), ImagingError> {
@@ -285,9 +252,7 @@ impl ImagingOperator for GridPlan {
         };
         let summed = &*summed;
         let samples = Samples::new(self, vis);
-        let layout = self.layout(&samples, vis.n_rows(), |i| {
-            summed[i * n_src..(i + 1) * n_src].iter().any(|v| *v != ZERO)
-        });
+        let layout = self.layout(&samples, vis.n_rows());
         let values = GridValues { summed, n_src, outputs };
         let w = self.kernel.support();
         let mut grids = self.pool.take(n_out, px * py);
@@ -336,7 +301,7 @@ impl ImagingOperator for GridPlan {
             .expect("sized to the shape");
         if !images.is_empty() {
             let samples = Samples::new(self, vis);
-            let mut layout = self.layout(&samples, n_rows, |_| true);
+            let mut layout = self.layout(&samples, n_rows);
             if self.n_w_planes() > 1 {
                 self.measure_blocks(&samples, &mut layout);
             }

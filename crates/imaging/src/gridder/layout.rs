@@ -111,19 +111,15 @@ pub(super) struct Layout {
 /// order; a few per thread keep both threads busy).
 const SORT_RUNS: usize = 8;
 
-/// Stable counting sort of the samples by tile: the keys `key(i)` of the samples i with
-/// `tiles[i]` ≠ `NO_TILE`, ordered by (tile, i), and the first position of every tile (plus the
-/// total at the end).
+/// Stable counting sort of the samples by tile: the samples (keys) k with `tiles[k]` ≠
+/// `NO_TILE`, ordered by (tile, k), and the first position of every tile (plus the total at the
+/// end).
 ///
-/// In parallel: the samples are cut into runs of consecutive i; each run counts its tiles; within
+/// In parallel: the keys are cut into runs of consecutive k; each run counts its tiles; within
 /// every tile the runs' slots follow one another in run order; and each run then writes its
-/// samples, in order, into its own slots. The result is the serial sort's, whatever the number
+/// keys, in order, into its own slots. The result is the serial sort's, whatever the number
 /// of runs or threads.
-pub(super) fn sort_by_tile(
-    tiles: &[u32],
-    n_tiles: usize,
-    key: impl Fn(usize) -> usize + Sync,
-) -> (Vec<usize>, Vec<usize>) {
+pub(super) fn sort_by_tile(tiles: &[u32], n_tiles: usize) -> (Vec<usize>, Vec<usize>) {
     let n = tiles.len();
     let runs = SORT_RUNS.min(n).max(1);
     let bounds: Vec<usize> = (0..=runs).map(|r| r * n / runs).collect();
@@ -148,15 +144,15 @@ pub(super) fn sort_by_tile(
         }
     }
     tile_starts[n_tiles] = next;
-    let mut order = vec![0usize; next];
+    let mut order: Vec<usize> = crate::grid_pool::fresh_zeroed(next);
     let out = Disjoint::new(&mut order);
     slots.into_par_iter().enumerate().for_each(|(r, mut slot)| {
-        for (i, &t) in tiles.iter().enumerate().take(bounds[r + 1]).skip(bounds[r]) {
+        for (k, &t) in tiles.iter().enumerate().take(bounds[r + 1]).skip(bounds[r]) {
             if t != NO_TILE {
                 // SAFETY: run r's slots in tile t, [slots_r(t), slots_r(t) + count_r(t)), are
                 // disjoint from every other run's and tile's, and run r writes exactly
                 // count_r(t) samples there, one per position.
-                unsafe { *out.slot(slot[t as usize]) = key(i) };
+                unsafe { *out.slot(slot[t as usize]) = k };
                 slot[t as usize] += 1;
             }
         }
@@ -165,18 +161,16 @@ pub(super) fn sort_by_tile(
 }
 
 impl Layout {
-    /// The samples i whose tile in `map` is `tiles[i]` (`NO_TILE`: left out), named by their
-    /// keys `key(i)` (increasing with i), with first plane `first(key)`, sorted for the tiled
-    /// passes over `n_planes` planes.
+    /// The samples (keys) k whose tile in `map` is `tiles[k]` (`NO_TILE`: left out, or no
+    /// sample), with first plane `first(k)`, sorted for the tiled passes over `n_planes` planes.
     pub(super) fn new(
         tiles: &[u32],
         map: TileMap,
         n_planes: usize,
-        key: impl Fn(usize) -> usize + Sync,
         first: impl Fn(usize) -> u32 + Sync,
     ) -> Self {
         let n_tiles = map.bands() * map.tiles_x;
-        let (mut order, tile_starts) = sort_by_tile(tiles, n_tiles, key);
+        let (mut order, tile_starts) = sort_by_tile(tiles, n_tiles);
         // Within a tile, by first plane (and by key within one first plane).
         let firsts: Option<Vec<u32>> = (n_planes > 1).then(|| {
             let mut keyed: Vec<(u32, usize)> = order.par_iter().map(|&k| (first(k), k)).collect();
