@@ -10,6 +10,7 @@
 //! and the images are identical bit for bit with any number of threads. Degridding reads each
 //! tile's window of the plane into the same kind of buffer, computes each sample in one task and
 //! adds its planes in plane order, which is equally independent of the thread count.
+use crate::disjoint::Disjoint;
 use crate::error::ImagingError;
 use crate::grid_pool::fresh_grid;
 use crate::operator::{check_degrid_args, check_grid_args, GridOutput, ImagingOperator};
@@ -34,6 +35,7 @@ mod tile_rows;
 mod tiles;
 
 const ZERO: Complex64 = Complex64 { re: 0.0, im: 0.0 };
+const ONE: Complex64 = Complex64 { re: 1.0, im: 0.0 };
 
 /// ⌈x⌉ for finite x (saturating far outside any grid), without a libm call.
 #[inline(always)]
@@ -98,6 +100,14 @@ impl<'a> Samples<'a> {
     #[inline(always)]
     fn row_chan(&self, key: usize) -> (usize, usize) {
         (key >> self.shift, key & ((1 << self.shift) - 1))
+    }
+
+    /// exp(sign · 2πi w c) for the sample of row `r`, channel `c` (w in wavelengths, as
+    /// measured, before any mirroring; c the plan's w shift, see [`GridPlan`]).
+    #[inline]
+    fn w_phasor(&self, plan: &GridPlan, r: usize, c: usize, sign: f64) -> Complex64 {
+        let w = self.uvw[3 * r + 2] * self.per_lambda[c];
+        Complex64::from_polar(1.0, sign * 2.0 * std::f64::consts::PI * w * plan.w_shift)
     }
 
     /// Index i of the sample with key `key`.
@@ -234,24 +244,28 @@ impl ImagingOperator for GridPlan {
         // Sum of the correlations of every sample, per source (the Stokes-I numerator); the
         // source itself when there is one contiguous source of one correlation.
         let n_src = sources.len();
-        let summed: Cow<[Complex64]> = match (n_src, np, sources[0].as_slice()) {
-            (1, 1, Some(all)) => Cow::Borrowed(all),
+        let samples = Samples::new(self, vis);
+        // With shifted w planes (see `GridPlan`), each value times exp(+2πi w c).
+        let shifted = self.w_shift != 0.0;
+        let summed: Cow<[Complex64]> = match (n_src, np, sources[0].as_slice(), shifted) {
+            (1, 1, Some(all), false) => Cow::Borrowed(all),
             _ => {
                 let mut summed = vec![ZERO; vis.n_rows() * nc * n_src];
                 summed.par_chunks_mut(n_src).enumerate().for_each(|(i, v)| {
                     let (r, c) = (i / nc, i % nc);
+                    let phasor = if shifted { samples.w_phasor(self, r, c, 1.0) } else { ONE };
                     for (x, src) in v.iter_mut().zip(sources) {
-                        *x = match src.as_slice() {
+                        let sum: Complex64 = match src.as_slice() {
                             Some(all) => all[i * np..(i + 1) * np].iter().sum(),
                             None => src.slice(ndarray::s![r, c, ..]).iter().sum(),
                         };
+                        *x = if shifted { sum * phasor } else { sum };
                     }
                 });
                 Cow::Owned(summed)
             }
         };
         let summed = &*summed;
-        let samples = Samples::new(self, vis);
         let layout = self.layout(&samples, vis.n_rows());
         let values = GridValues { summed, n_src, outputs };
         let w = self.kernel.support();
@@ -352,11 +366,22 @@ impl ImagingOperator for GridPlan {
             }
             self.pool.give_back(grids, false);
             if sorted {
-                // The same value for every correlation of the sample.
-                for (&key, v) in layout.order.iter().zip(acc) {
-                    let i = samples.index(key);
-                    all[i * np..(i + 1) * np].iter_mut().for_each(|x| *x = v);
-                }
+                // The same value for every correlation of the sample; with shifted w planes (see
+                // `GridPlan`), times exp(−2πi w c).
+                let shifted = self.w_shift != 0.0;
+                let all = Disjoint::new(all);
+                layout.order.par_iter().zip(acc).with_min_len(4096).for_each(|(&key, v)| {
+                    let (r, c) = samples.row_chan(key);
+                    let v = if shifted { v * samples.w_phasor(self, r, c, -1.0) } else { v };
+                    let i = r * nc + c;
+                    for slot in i * np..(i + 1) * np {
+                        // SAFETY: every key sits once in the layout's order, so sample i's
+                        // places are written by this task alone.
+                        unsafe { *all.slot(slot) = v };
+                    }
+                });
+            } else {
+                debug_assert!(self.w_shift == 0.0, "shifted planes are always more than one");
             }
         }
         Ok(out)

@@ -42,11 +42,17 @@ impl WPlanes {
 /// decreasing l), so that exp(+2πi (u l + v m)) = exp(+2πi (s_x j_x / pad_nx + s_y j_y / pad_ny))
 /// with j = pixel − centre, and the image is an unnormalised inverse FFT of the grid.
 ///
-/// w-planes ([`WTerm::Stack`]): with x = n − 1 ∈ [x_min, 0] over the field, the planes are spaced
-/// Δw = 1 / (2 σ max|x|), so that the image-domain frequency along w, Δw · |x|, stays within the
-/// 1/(2σ) band on which the ES kernel reaches ε — the same condition as for u and v on the padded
-/// grid. Planes cover [w_min − W/2 Δw, w_max + W/2 Δw]: ⌈(w_max − w_min)/Δw⌉ + W + 1 planes,
-/// where [w_min, w_max] is the range of |w| when the plan folds (below).
+/// w-planes ([`WTerm::Stack`]): with x = n − 1 ∈ [x_min, 0] over the field and a shift c, the
+/// planes and their screens work with x − c, spaced Δw = 1 / (2 σ max|x − c|), so that the
+/// image-domain frequency along w, Δw · |x − c|, stays within the 1/(2σ) band on which the ES
+/// kernel reaches ε — the same condition as for u and v on the padded grid. A folded plan
+/// (below) takes c = x_min / 2, the middle of the range, which halves max|x − c| and so doubles
+/// Δw and about halves the planes; that is exact, because exp(2πi w x) = exp(2πi w c) ·
+/// exp(2πi w (x − c)): gridding multiplies every sample's value by exp(+2πi w c) and degridding
+/// every predicted value by exp(−2πi w c). An unfolded plan keeps c = 0 (its operators place
+/// samples on the planes themselves). Planes cover [w_min − W/2 Δw, w_max + W/2 Δw]:
+/// ⌈(w_max − w_min)/Δw⌉ + W + 1 planes, where [w_min, w_max] is the range of |w| when the plan
+/// folds.
 /// Pixels with l² + m² ≥ 1 (beyond the horizon) are set to zero.
 ///
 /// Cost and memory: every sample is spread onto W planes (W³ kernel products with w-stacking,
@@ -87,6 +93,8 @@ pub struct GridPlan {
     pub(crate) inverse_cy: Vec<f64>,
     /// n − 1 per pixel `[iy][ix]` (zero beyond the horizon or when w is ignored).
     pub(crate) n_minus_1: Array2<f64>,
+    /// The shift c of n − 1 the w planes and screens use (see above; 0 when w is ignored).
+    pub(crate) w_shift: f64,
     /// None when w is ignored (one plane at w = 0, no screen).
     pub(crate) planes: Option<WPlanes>,
     pub(crate) w_range: WRange,
@@ -168,9 +176,12 @@ impl GridPlan {
             (true, lo, hi) if hi <= 0.0 => (-hi, -lo),
             (true, lo, hi) => (0.0, hi.max(-lo)),
         };
+        let w_shift = if use_w && fold && max_x > 0.0 { -0.5 * max_x } else { 0.0 };
         let planes = if use_w && max_x > 0.0 {
             let w = kernel.support() as f64;
-            let dw = 1.0 / (2.0 * UPSAMPLING * max_x);
+            // max |x − c| over x ∈ [−max_x, 0].
+            let reach = (max_x + w_shift).max(-w_shift);
+            let dw = 1.0 / (2.0 * UPSAMPLING * reach);
             let span = ((w_hi - w_lo) / dw).ceil();
             if span.is_nan() || span >= 1e6 {
                 return Err(ImagingError::Parameter {
@@ -216,8 +227,8 @@ impl GridPlan {
                     if !used || r2 >= 1.0 {
                         return 0.0;
                     }
-                    // The same expression as n − 1 above.
-                    kernel.fourier(p.dw * (-r2 / (1.0 + (1.0 - r2).sqrt())))
+                    // The same expression as n − 1 above, shifted.
+                    kernel.fourier(p.dw * (-r2 / (1.0 + (1.0 - r2).sqrt()) - w_shift))
                 })
                 .collect(),
             None => Vec::new(),
@@ -259,6 +270,7 @@ impl GridPlan {
             inverse_cy: cy.iter().map(|c| 1.0 / c).collect(),
             inverse_correction,
             n_minus_1,
+            w_shift,
             planes,
             w_range,
             fold,
@@ -341,7 +353,7 @@ mod tests {
 
     #[test]
     fn w_correction_is_the_kernel_transform_at_every_pixel() {
-        // Definition: 1 / (ψ̂(j_x/pad_nx) ψ̂(j_y/pad_ny) ψ̂(Δw (n − 1))) per pixel, evaluated here
+        // Definition: 1 / (ψ̂(j_x/pad_nx) ψ̂(j_y/pad_ny) ψ̂(Δw (n − 1 − c))) per pixel, evaluated here
         // pixel by pixel (the plan shares ψ̂ along w between pixels of equal radius). The same
         // floating-point operations in the same order, so equal to rounding (1e-14 is headroom).
         let g = ImageGeometry::new(24, 18, 0.01);
@@ -353,7 +365,7 @@ mod tests {
             for ix in 0..g.nx {
                 let cx = k.fourier((ix as f64 - 12.0) / px as f64);
                 let cy = k.fourier((iy as f64 - 9.0) / py as f64);
-                let want = 1.0 / (cx * cy * k.fourier(dw * p.n_minus_1[[iy, ix]]));
+                let want = 1.0 / (cx * cy * k.fourier(dw * (p.n_minus_1[[iy, ix]] - p.w_shift)));
                 let got = p.inverse_correction[[iy, ix]];
                 assert!((got - want).abs() <= 1e-14 * want.abs(), "{ix} {iy}: {got} {want}");
             }
@@ -384,20 +396,29 @@ mod tests {
 
     #[test]
     fn plane_spacing_rule() {
-        // Δw = 1/(2σ max|n−1|) with max|n−1| at the field corner (definition of the rule above).
+        // Δw = 1/(2σ max|n − 1 − c|) with max|n − 1| = x at the field corner (definition of the
+        // rule above): c = −x/2 when the plan folds, so Δw = 1/(σ x); c = 0 unfolded, Δw =
+        // 1/(2σ x).
         let g = ImageGeometry::new(64, 64, 1e-3);
         let p = GridPlan::new(g, &GridderParams::default(), WRange::new(-100.0, 300.0).unwrap())
             .unwrap();
         let r2 = 2.0 * (32.0e-3f64).powi(2);
         let x = 1.0 - (1.0 - r2).sqrt();
         let dw = p.w_plane_spacing().unwrap();
-        assert!((dw - 1.0 / (4.0 * x)).abs() < 1e-9 * dw);
+        assert!((dw - 1.0 / (2.0 * x)).abs() < 1e-9 * dw);
+        assert!((p.w_shift + 0.5 * x).abs() < 1e-12 * x);
         // Folded, the planes hold |w| ∈ [0, 300]; unfolded, all of [−100, 300].
         assert_eq!(p.n_w_planes(), (300.0 / dw).ceil() as usize + p.kernel().support() + 1);
         let unfolded =
             GridPlan::unfolded(g, &GridderParams::default(), WRange::new(-100.0, 300.0).unwrap())
                 .unwrap();
-        assert_eq!(unfolded.n_w_planes(), (400.0 / dw).ceil() as usize + p.kernel().support() + 1);
+        let dw_unfolded = unfolded.w_plane_spacing().unwrap();
+        assert!((dw_unfolded - 1.0 / (4.0 * x)).abs() < 1e-9 * dw_unfolded);
+        assert_eq!(unfolded.w_shift, 0.0);
+        assert_eq!(
+            unfolded.n_w_planes(),
+            (400.0 / dw_unfolded).ceil() as usize + p.kernel().support() + 1
+        );
         let negative =
             GridPlan::new(g, &GridderParams::default(), WRange::new(-300.0, -100.0).unwrap())
                 .unwrap();

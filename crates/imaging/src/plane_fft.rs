@@ -447,7 +447,9 @@ impl Screens {
         let (x_t, step, w0, dw, stacked) = match plan.planes {
             Some(p) => {
                 let x = plan.n_minus_1.as_slice().expect("plan arrays are contiguous");
-                let x_t = plan.transposed(x);
+                // The planes' shift of n − 1 (see `GridPlan`).
+                let x_t: Vec<f64> =
+                    plan.transposed(x).into_iter().map(|x| x - plan.w_shift).collect();
                 let step = x_t
                     .par_iter()
                     .map(|&x| Complex64::from_polar(1.0, sign * 2.0 * PI * p.dw * x))
@@ -680,16 +682,22 @@ mod tests {
 
     #[test]
     fn advanced_screens_match_direct_evaluation() {
-        // Reference: c · exp(±2πi w_p (n − 1)) evaluated directly per plane (the definition).
-        // The recurrence's rounding grows by ~1e-16 per step and is reset every 16 planes;
-        // 1e-13 is far above that and far below the ε ≥ 1e-14 · (pad size) the gridder needs.
-        let p = plan(16, 12, WTerm::Stack);
-        let planes = p.planes.unwrap();
-        assert!(planes.count > 20, "{} planes", planes.count);
-        let corr = p.inverse_correction.as_slice().unwrap();
-        let x = p.n_minus_1.as_slice().unwrap();
-        for sign in [1.0, -1.0] {
-            let mut screens = Screens::new(&p, corr, sign);
+        // Reference: c · exp(±2πi w_p (n − 1 − shift)) evaluated directly per plane (the
+        // definition). The recurrence's rounding grows by ~1e-16 per step and is reset every 16
+        // planes; 1e-13 is far above that and far below the ε ≥ 1e-14 · (pad size) the gridder
+        // needs. A folded plan (shifted planes) and an unfolded one (no shift).
+        let g = ImageGeometry::new(16, 12, 0.004);
+        let params = GridderParams { epsilon: 1e-6, w_term: WTerm::Stack };
+        let folded = GridPlan::new(g, &params, WRange::new(-1500.0, 9000.0).unwrap()).unwrap();
+        let unfolded =
+            GridPlan::unfolded(g, &params, WRange::new(-1500.0, 4000.0).unwrap()).unwrap();
+        assert!(folded.w_shift < 0.0 && unfolded.w_shift == 0.0);
+        for (p, sign) in [(&folded, 1.0), (&folded, -1.0), (&unfolded, 1.0), (&unfolded, -1.0)] {
+            let planes = p.planes.unwrap();
+            assert!(planes.count > 20, "{} planes", planes.count);
+            let corr = p.inverse_correction.as_slice().unwrap();
+            let x = p.n_minus_1.as_slice().unwrap();
+            let mut screens = Screens::new(p, corr, sign);
             // Every plane, then with gaps.
             let order: Vec<usize> = (0..planes.count).filter(|q| q % 5 != 3 || *q < 12).collect();
             for &q in &order {
@@ -699,7 +707,8 @@ mod tests {
                 for iy in 0..12 {
                     for ix in 0..16 {
                         let k = iy * 16 + ix;
-                        let want = Complex64::from_polar(corr[k], sign * 2.0 * PI * wp * x[k]);
+                        let phase = sign * 2.0 * PI * wp * (x[k] - p.w_shift);
+                        let want = Complex64::from_polar(corr[k], phase);
                         assert!((got[ix * 12 + iy] - want).norm() < 1e-13 * corr[k].max(1.0));
                     }
                 }
