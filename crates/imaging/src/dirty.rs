@@ -104,7 +104,7 @@ pub fn dirty_images<O: ImagingOperator + ?Sized>(
 }
 
 /// Model visibilities `[row][chan][corr]` (both hands the same) of a Taylor-term model:
-/// V(ν) = Σ_t w_t(ν) · FT(models[t]), models in Jy per pixel, through `op`'s forward model.
+/// V(ν) = Σ_t w_t(ν) · FT(`models[t]`), models in Jy per pixel, through `op`'s forward model.
 pub fn predict_visibilities<O: ImagingOperator + ?Sized>(
     op: &O,
     vis: &VisSet,

@@ -43,7 +43,7 @@ pub trait ImagingOperator: Sync {
         outputs: &[GridOutput],
     ) -> Result<Vec<Array2<f64>>, ImagingError>;
 
-    /// Forward model: visibilities `[row][chan][corr]` of Σ_t f_t(ν) · FT(images[t]), where
+    /// Forward model: visibilities `[row][chan][corr]` of Σ_t f_t(ν) · FT(`images[t]`), where
     /// `channel_factors[t]` holds f_t per channel.
     fn degrid(
         &self,

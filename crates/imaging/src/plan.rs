@@ -49,8 +49,8 @@ impl WPlanes {
 /// (below) takes c = x_min / 2, the middle of the range, which halves max|x − c| and so doubles
 /// Δw and about halves the planes; that is exact, because exp(2πi w x) = exp(2πi w c) ·
 /// exp(2πi w (x − c)): gridding multiplies every sample's value by exp(+2πi w c) and degridding
-/// every predicted value by exp(−2πi w c). An unfolded plan keeps c = 0 (its operators place
-/// samples on the planes themselves). Planes cover [w_min − W/2 Δw, w_max + W/2 Δw]:
+/// every predicted value by exp(−2πi w c). An unfolded plan (for operators that place samples on
+/// the planes themselves) is shifted only when its operator asks for it and applies that factor. Planes cover [w_min − W/2 Δw, w_max + W/2 Δw]:
 /// ⌈(w_max − w_min)/Δw⌉ + W + 1 planes, where [w_min, w_max] is the range of |w| when the plan
 /// folds.
 /// Pixels with l² + m² ≥ 1 (beyond the horizon) are set to zero.
@@ -112,17 +112,30 @@ impl GridPlan {
         params: &GridderParams,
         w_range: WRange,
     ) -> Result<Self, ImagingError> {
-        Self::with_folding(geometry, params, w_range, true)
+        Self::with_folding(geometry, params, w_range, true, true)
     }
 
     /// [`GridPlan::new`] without folding: every sample keeps its own (u, v, w), and the w planes
     /// cover all of `w_range` (for operators that place samples on the plan's planes themselves).
+    /// With `shift`, the planes work with n − 1 − c (see above), and the operator must multiply
+    /// each sample's value by [`GridPlan::w_shift_phasor`].
     pub(crate) fn unfolded(
         geometry: ImageGeometry,
         params: &GridderParams,
         w_range: WRange,
+        shift: bool,
     ) -> Result<Self, ImagingError> {
-        Self::with_folding(geometry, params, w_range, false)
+        Self::with_folding(geometry, params, w_range, false, shift)
+    }
+
+    /// exp(sign · 2πi w c) for a sample at `w_lambda` wavelengths (c the planes' shift of n − 1;
+    /// sign +1 for gridding, −1 for degridding; 1 when the planes are not shifted).
+    #[inline]
+    pub(crate) fn w_shift_phasor(&self, w_lambda: f64, sign: f64) -> num_complex::Complex64 {
+        num_complex::Complex64::from_polar(
+            1.0,
+            sign * 2.0 * std::f64::consts::PI * w_lambda * self.w_shift,
+        )
     }
 
     fn with_folding(
@@ -130,6 +143,7 @@ impl GridPlan {
         params: &GridderParams,
         w_range: WRange,
         fold: bool,
+        shift: bool,
     ) -> Result<Self, ImagingError> {
         let bad = |why| ImagingError::Geometry {
             nx: geometry.nx,
@@ -176,7 +190,7 @@ impl GridPlan {
             (true, lo, hi) if hi <= 0.0 => (-hi, -lo),
             (true, lo, hi) => (0.0, hi.max(-lo)),
         };
-        let w_shift = if use_w && fold && max_x > 0.0 { -0.5 * max_x } else { 0.0 };
+        let w_shift = if use_w && shift && max_x > 0.0 { -0.5 * max_x } else { 0.0 };
         let planes = if use_w && max_x > 0.0 {
             let w = kernel.support() as f64;
             // max |x − c| over x ∈ [−max_x, 0].
@@ -409,9 +423,13 @@ mod tests {
         assert!((p.w_shift + 0.5 * x).abs() < 1e-12 * x);
         // Folded, the planes hold |w| ∈ [0, 300]; unfolded, all of [−100, 300].
         assert_eq!(p.n_w_planes(), (300.0 / dw).ceil() as usize + p.kernel().support() + 1);
-        let unfolded =
-            GridPlan::unfolded(g, &GridderParams::default(), WRange::new(-100.0, 300.0).unwrap())
-                .unwrap();
+        let unfolded = GridPlan::unfolded(
+            g,
+            &GridderParams::default(),
+            WRange::new(-100.0, 300.0).unwrap(),
+            false,
+        )
+        .unwrap();
         let dw_unfolded = unfolded.w_plane_spacing().unwrap();
         assert!((dw_unfolded - 1.0 / (4.0 * x)).abs() < 1e-9 * dw_unfolded);
         assert_eq!(unfolded.w_shift, 0.0);

@@ -690,7 +690,7 @@ mod tests {
         let params = GridderParams { epsilon: 1e-6, w_term: WTerm::Stack };
         let folded = GridPlan::new(g, &params, WRange::new(-1500.0, 9000.0).unwrap()).unwrap();
         let unfolded =
-            GridPlan::unfolded(g, &params, WRange::new(-1500.0, 4000.0).unwrap()).unwrap();
+            GridPlan::unfolded(g, &params, WRange::new(-1500.0, 4000.0).unwrap(), false).unwrap();
         assert!(folded.w_shift < 0.0 && unfolded.w_shift == 0.0);
         for (p, sign) in [(&folded, 1.0), (&folded, -1.0), (&unfolded, 1.0), (&unfolded, -1.0)] {
             let planes = p.planes.unwrap();

@@ -287,7 +287,7 @@ pub fn kernel_table_bytes<B: VoltageBeam + ?Sized>(
     frequencies_hz: &[f64],
     params: &KernelAProjectionParams,
 ) -> Result<KernelTableEstimate, ImagingError> {
-    let plan = GridPlan::unfolded(geometry, &params.gridder, WRange::new(0.0, 0.0)?)?;
+    let plan = GridPlan::unfolded(geometry, &params.gridder, WRange::new(0.0, 0.0)?, false)?;
     let layout = KernelLayout::new(&plan, beam, n_pa_bins, frequencies_hz, params)?;
     Ok(layout.estimate(params.oversampling))
 }
@@ -310,9 +310,12 @@ pub fn kernel_table_bytes<B: VoltageBeam + ?Sized>(
 /// How: each sample is spread with K(g − s) = FT(ψ̂ A)(g − s) (see the kernel tables' module:
 /// the ES kernel convolved with the beam's uv transform, support S from ε) times the ES
 /// weight of its w-plane; per w-plane one FFT per output image and the usual screen
-/// (1/ψ̂ correction, divided also by the interpolation gain, times exp(±2πi w_p (n − 1))). All
-/// PA bins, channels and hands share the planes, so the FFT count is that of the plain
-/// gridder, and the cost per sample is S² per plane it touches.
+/// (1/ψ̂ correction, divided also by the interpolation gain, times exp(±2πi w_p (n − 1 − c))).
+/// The planes work with n − 1 shifted by c, half its most negative value over the field, which
+/// about halves their number; each sample's value is multiplied by exp(+2πi w c) before
+/// spreading and each prediction by exp(−2πi w c) (exact; see [`GridPlan`]). All PA bins,
+/// channels and hands share the planes, so the FFT count is that of the plain gridder, and the
+/// cost per sample is S² per plane it touches.
 ///
 /// Accuracy: the kernels are read at the nearest or bilinearly interpolated lattice point of
 /// spacing 1/O cells; this, not ε, sets the error. Measured against the direct beam sum (max
@@ -378,7 +381,9 @@ impl<'a, B: VoltageBeam + ?Sized> KernelAProjection<'a, B> {
         params: KernelAProjectionParams,
     ) -> Result<Self, ImagingError> {
         check_params(&params)?;
-        let plan = GridPlan::unfolded(geometry, &params.gridder, w_range)?;
+        // Shifted planes (about half as many; see `GridPlan`): the passes apply each sample's
+        // phase factor (`Site::phasor`).
+        let plan = GridPlan::unfolded(geometry, &params.gridder, w_range, true)?;
         if beam.n_antennas() == 0 {
             return Err(ImagingError::Parameter {
                 name: "beam",

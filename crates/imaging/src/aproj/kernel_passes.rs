@@ -41,6 +41,9 @@ pub(crate) struct Site {
     pub support: usize,
     /// w-plane coordinate (0 when w is ignored).
     pub w: f64,
+    /// exp(+2πi w c) for the plan's shift c of n − 1 (see `GridPlan`; 1 when not shifted):
+    /// gridding multiplies the sample's values by it, degridding its prediction by the conjugate.
+    pub phasor: Complex64,
 }
 
 fn hand(p: Pol) -> usize {
@@ -94,8 +97,9 @@ impl<B: VoltageBeam + ?Sized> KernelAProjection<'_, B> {
                 let h = support / 2;
                 let (x0, fx, ax) = place(-u * cell * px, o, h, how);
                 let (y0, fy, ay) = place(v * cell * py, o, h, how);
+                let phasor = self.plan.w_shift_phasor(w, 1.0);
                 let w = self.plan.planes.map_or(0.0, |p| p.coordinate(w));
-                Site { tables, x0, y0, fx, fy, ax, ay, support, w }
+                Site { tables, x0, y0, fx, fy, ax, ay, support, w, phasor }
             })
             .collect()
     }
@@ -383,8 +387,9 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
                                 let mut any = false;
                                 for (o, out) in outs.iter().enumerate() {
                                     for k in 0..np {
-                                        let x =
-                                            sources[out.source][[r, c, k]] * out.channel_factors[c];
+                                        let x = sources[out.source][[r, c, k]]
+                                            * out.channel_factors[c]
+                                            * s.phasor;
                                         any |= x != ZERO;
                                         base[o * np + k] = x;
                                     }
@@ -635,7 +640,8 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
                                         *tot += sum.value(k) * f;
                                     }
                                 }
-                                total
+                                let back = s.phasor.conj();
+                                total.map(|t| t * back)
                             })
                             .collect::<Vec<_>>()
                     })
