@@ -106,8 +106,7 @@ impl<'a> Samples<'a> {
     /// measured, before any mirroring; c the plan's w shift, see [`GridPlan`]).
     #[inline]
     fn w_phasor(&self, plan: &GridPlan, r: usize, c: usize, sign: f64) -> Complex64 {
-        let w = self.uvw[3 * r + 2] * self.per_lambda[c];
-        Complex64::from_polar(1.0, sign * 2.0 * std::f64::consts::PI * w * plan.w_shift)
+        plan.w_shift_phasor(self.uvw[3 * r + 2] * self.per_lambda[c], sign)
     }
 
     /// Index i of the sample with key `key`.
