@@ -21,9 +21,10 @@ pub struct EsKernel {
     support: usize,
     beta: f64,
     epsilon: f64,
-    /// sin θ_q of the quadrature nodes.
+    /// sin θ_q of the quadrature nodes with θ_q ≥ 0.
     sines: Vec<f64>,
-    /// (π/2) w_q e^{β (cos θ_q − 1)} cos θ_q.
+    /// (π/2) w_q e^{β (cos θ_q − 1)} cos θ_q, doubled for θ_q > 0 (its mirror image −θ_q gives
+    /// the same term).
     weights: Vec<f64>,
 }
 
@@ -47,15 +48,18 @@ impl EsKernel {
         // (checked against a 2000-node rule in the tests).
         let (nodes, gl_weights) = gauss_legendre(4 * support + 40);
         let half_pi = 0.5 * PI;
-        let sines = nodes.iter().map(|x| (half_pi * x).sin()).collect();
-        let weights = nodes
+        // The rule is symmetric (node −x beside x, with the same weight) and the integrand even,
+        // so each pair is one node x ≥ 0 with twice the weight: half the cosines per ψ̂.
+        let (sines, weights) = nodes
             .iter()
             .zip(&gl_weights)
-            .map(|(x, w)| {
+            .filter(|(&x, _)| x >= 0.0)
+            .map(|(&x, &w)| {
                 let c = (half_pi * x).cos();
-                half_pi * w * (beta * (c - 1.0)).exp() * c
+                let pair = if x > 0.0 { 2.0 } else { 1.0 };
+                ((half_pi * x).sin(), pair * half_pi * w * (beta * (c - 1.0)).exp() * c)
             })
-            .collect();
+            .unzip();
         Ok(Self { support, beta, epsilon, sines, weights })
     }
 
