@@ -89,13 +89,9 @@ pub(crate) fn fresh_grid(len: usize) -> Vec<Complex64> {
 /// # Safety
 /// Implement only for types where every all-zero bit pattern is a valid value.
 pub(crate) unsafe trait ZeroBits: Copy {}
-// SAFETY: all-zero bytes are 0 for the integers, +0.0 for f64 and 0.0 + 0.0i for Complex64.
+// SAFETY: all-zero bytes are the integer 0.
 unsafe impl ZeroBits for usize {}
-// SAFETY: as above.
-unsafe impl ZeroBits for u32 {}
-// SAFETY: as above.
-unsafe impl ZeroBits for f64 {}
-// SAFETY: as above.
+// SAFETY: all-zero bytes are 0.0 + 0.0i.
 unsafe impl ZeroBits for Complex64 {}
 
 /// A new all-zero buffer of `len` values on 2 MiB pages where the system allows it (see

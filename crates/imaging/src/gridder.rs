@@ -35,7 +35,6 @@ mod tile_rows;
 mod tiles;
 
 const ZERO: Complex64 = Complex64 { re: 0.0, im: 0.0 };
-const ONE: Complex64 = Complex64 { re: 1.0, im: 0.0 };
 
 /// ⌈x⌉ for finite x (saturating far outside any grid), without a libm call.
 #[inline(always)]
@@ -252,13 +251,13 @@ impl ImagingOperator for GridPlan {
                 let mut summed = vec![ZERO; vis.n_rows() * nc * n_src];
                 summed.par_chunks_mut(n_src).enumerate().for_each(|(i, v)| {
                     let (r, c) = (i / nc, i % nc);
-                    let phasor = if shifted { samples.w_phasor(self, r, c, 1.0) } else { ONE };
+                    let phasor = shifted.then(|| samples.w_phasor(self, r, c, 1.0));
                     for (x, src) in v.iter_mut().zip(sources) {
                         let sum: Complex64 = match src.as_slice() {
                             Some(all) => all[i * np..(i + 1) * np].iter().sum(),
                             None => src.slice(ndarray::s![r, c, ..]).iter().sum(),
                         };
-                        *x = if shifted { sum * phasor } else { sum };
+                        *x = phasor.map_or(sum, |p| sum * p);
                     }
                 });
                 Cow::Owned(summed)

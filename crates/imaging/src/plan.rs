@@ -6,6 +6,7 @@ use crate::params::{GridderParams, WRange, WTerm};
 use crate::plane_fft::FftPlan;
 use beamfloor_core::ImageGeometry;
 use ndarray::Array2;
+use num_complex::Complex64;
 use rayon::prelude::*;
 use rustfft::FftPlanner;
 use std::sync::Arc;
@@ -45,12 +46,13 @@ impl WPlanes {
 /// w-planes ([`WTerm::Stack`]): with x = n − 1 ∈ [x_min, 0] over the field and a shift c, the
 /// planes and their screens work with x − c, spaced Δw = 1 / (2 σ max|x − c|), so that the
 /// image-domain frequency along w, Δw · |x − c|, stays within the 1/(2σ) band on which the ES
-/// kernel reaches ε — the same condition as for u and v on the padded grid. A folded plan
-/// (below) takes c = x_min / 2, the middle of the range, which halves max|x − c| and so doubles
-/// Δw and about halves the planes; that is exact, because exp(2πi w x) = exp(2πi w c) ·
-/// exp(2πi w (x − c)): gridding multiplies every sample's value by exp(+2πi w c) and degridding
-/// every predicted value by exp(−2πi w c). An unfolded plan (for operators that place samples on
-/// the planes themselves) is shifted only when its operator asks for it and applies that factor. Planes cover [w_min − W/2 Δw, w_max + W/2 Δw]:
+/// kernel reaches ε — the same condition as for u and v on the padded grid. A shifted plan takes
+/// c = x_min / 2, the middle of the range, which halves max|x − c| and so doubles Δw and about
+/// halves the planes; that is exact, because exp(2πi w x) = exp(2πi w c) · exp(2πi w (x − c)):
+/// gridding multiplies every sample's value by exp(+2πi w c) and degridding every predicted value
+/// by exp(−2πi w c) ([`GridPlan::w_shift_phasor`]). Folded plans are always shifted; an unfolded
+/// one (for operators that place samples on the planes themselves) only when its operator asks
+/// for it and applies that factor. Planes cover [w_min − W/2 Δw, w_max + W/2 Δw]:
 /// ⌈(w_max − w_min)/Δw⌉ + W + 1 planes, where [w_min, w_max] is the range of |w| when the plan
 /// folds.
 /// Pixels with l² + m² ≥ 1 (beyond the horizon) are set to zero.
@@ -131,11 +133,11 @@ impl GridPlan {
     /// exp(sign · 2πi w c) for a sample at `w_lambda` wavelengths (c the planes' shift of n − 1;
     /// sign +1 for gridding, −1 for degridding; 1 when the planes are not shifted).
     #[inline]
-    pub(crate) fn w_shift_phasor(&self, w_lambda: f64, sign: f64) -> num_complex::Complex64 {
-        num_complex::Complex64::from_polar(
-            1.0,
-            sign * 2.0 * std::f64::consts::PI * w_lambda * self.w_shift,
-        )
+    pub(crate) fn w_shift_phasor(&self, w_lambda: f64, sign: f64) -> Complex64 {
+        if self.w_shift == 0.0 {
+            return Complex64::new(1.0, 0.0);
+        }
+        Complex64::from_polar(1.0, sign * 2.0 * std::f64::consts::PI * w_lambda * self.w_shift)
     }
 
     fn with_folding(
