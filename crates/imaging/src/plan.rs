@@ -50,7 +50,7 @@ impl WPlanes {
 /// c = x_min / 2, the middle of the range, which halves max|x − c| and so doubles Δw and about
 /// halves the planes; that is exact, because exp(2πi w x) = exp(2πi w c) · exp(2πi w (x − c)):
 /// gridding multiplies every sample's value by exp(+2πi w c) and degridding every predicted value
-/// by exp(−2πi w c) ([`GridPlan::w_shift_phasor`]). Folded plans are always shifted; an unfolded
+/// by exp(−2πi w c) (`GridPlan::w_shift_phasor`). Folded plans are always shifted; an unfolded
 /// one (for operators that place samples on the planes themselves) only when its operator asks
 /// for it and applies that factor. Planes cover [w_min − W/2 Δw, w_max + W/2 Δw]:
 /// ⌈(w_max − w_min)/Δw⌉ + W + 1 planes, where [w_min, w_max] is the range of |w| when the plan
@@ -120,7 +120,7 @@ impl GridPlan {
     /// [`GridPlan::new`] without folding: every sample keeps its own (u, v, w), and the w planes
     /// cover all of `w_range` (for operators that place samples on the plan's planes themselves).
     /// With `shift`, the planes work with n − 1 − c (see above), and the operator must multiply
-    /// each sample's value by [`GridPlan::w_shift_phasor`].
+    /// each sample's value by `GridPlan::w_shift_phasor`.
     pub(crate) fn unfolded(
         geometry: ImageGeometry,
         params: &GridderParams,
