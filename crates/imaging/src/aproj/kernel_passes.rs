@@ -364,92 +364,88 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
                             per_band[b].push(chunk);
                         }
                     }
-                    per_band.into_par_iter().zip(bands.par_iter_mut()).enumerate().for_each(
-                        |(b, (mut chunks, visits))| {
-                            // Visits run in grid-column order, so that the W · outputs grid
-                            // rows they update stay in cache from one to the next (on the demo
-                            // the grid lines are 14× the table data per sample; the spread took
-                            // 0.80 s per call against 0.95 s grouped by kernel table, one run
-                            // each); the key is unique per visit, so the order (and every sum)
-                            // does not depend on the thread count.
-                            visits.sort_unstable_by_key(|v| {
-                                (sites[v.site].x0.rem_euclid(px as i64), v.site, v.j0)
-                            });
-                            let max_s =
-                                visits.iter().map(|v| sites[v.site].support).max().unwrap_or(0);
-                            let mut block_scratch = vec![ZERO; 2 * max_s * max_s];
-                            let mut base = vec![ZERO; n_out * np];
-                            // One target line per (plane of the span, output).
-                            let mut targets: Vec<LineTarget> = Vec::with_capacity(window * n_out);
-                            for v in visits.iter() {
-                                let s = &sites[v.site];
-                                let (r, c) = (v.site / nc, v.site % nc);
-                                let mut any = false;
-                                for (o, out) in outs.iter().enumerate() {
-                                    for k in 0..np {
-                                        let x = sources[out.source][[r, c, k]]
-                                            * out.channel_factors[c]
-                                            * s.phasor;
-                                        any |= x != ZERO;
-                                        base[o * np + k] = x;
-                                    }
-                                }
-                                if !any {
-                                    continue;
-                                }
-                                targets.clear();
-                                for q in 0..spans[v.site].1 {
-                                    let kw = self.plane_weight(s.w, p + q);
-                                    let slot = (p + q) % window;
-                                    for (o, x) in base.chunks(np).enumerate() {
-                                        let mut vals = [ZERO; 2];
-                                        for (d, x) in vals.iter_mut().zip(x) {
-                                            *d = x * kw;
-                                        }
-                                        targets.push(LineTarget { grid: slot * n_out + o, vals });
-                                    }
-                                }
-                                let n = s.support;
-                                let x0 = s.x0.rem_euclid(px as i64) as usize;
-                                let n1 = n.min(px - x0);
-                                let block = self.kernel_blocks(
-                                    simd,
-                                    s,
-                                    &hands,
-                                    v.j0..v.j1,
-                                    &mut block_scratch,
-                                );
-                                for j in v.j0..v.j1 {
-                                    let y = (s.y0 + j as i64).rem_euclid(py as i64) as usize
-                                        - b * BAND_ROWS;
-                                    let at = (j - v.j0) * n..(j - v.j0 + 1) * n;
-                                    let krows = [&block[0][at.clone()], &block[1][at]];
-                                    let (head, tail) = (
-                                        [&krows[0][..n1], &krows[1][..n1]],
-                                        [&krows[0][n1..], &krows[1][n1..]],
-                                    );
-                                    // A footprint past the grid's last column wraps to its
-                                    // first (the grid is periodic).
-                                    spread_row(
-                                        simd,
-                                        &mut chunks,
-                                        y * px + x0,
-                                        &head[..np],
-                                        &targets,
-                                    );
-                                    if n1 < n {
-                                        spread_row(
-                                            simd,
-                                            &mut chunks,
-                                            y * px,
-                                            &tail[..np],
-                                            &targets,
-                                        );
-                                    }
+                    // One task per band, largest first (cells to spread as the estimate): the
+                    // bands near v = 0 carry a quarter of a plane's work on the demo, and in
+                    // rayon's default split (runs of bands) one thread was left with them: a
+                    // plane took 0.82 of its summed busy time in wall time on two threads, 0.52
+                    // now. Each band is still spread by one task in a fixed order, so the
+                    // result does not depend on the thread count or schedule.
+                    let mut tasks: Vec<_> =
+                        per_band.into_iter().zip(bands.iter_mut()).enumerate().collect();
+                    tasks.sort_by_key(|(_, (_, visits))| {
+                        std::cmp::Reverse(
+                            visits
+                                .iter()
+                                .map(|v| (v.j1 - v.j0) * sites[v.site].support)
+                                .sum::<usize>(),
+                        )
+                    });
+                    tasks.into_par_iter().with_max_len(1).for_each(|(b, (mut chunks, visits))| {
+                        // Visits run in grid-column order, so that the W · outputs grid
+                        // rows they update stay in cache from one to the next (on the demo
+                        // the grid lines are 14× the table data per sample; the spread took
+                        // 0.80 s per call against 0.95 s grouped by kernel table, one run
+                        // each); the key is unique per visit, so the order (and every sum)
+                        // does not depend on the thread count.
+                        visits.sort_unstable_by_key(|v| {
+                            (sites[v.site].x0.rem_euclid(px as i64), v.site, v.j0)
+                        });
+                        let max_s = visits.iter().map(|v| sites[v.site].support).max().unwrap_or(0);
+                        let mut block_scratch = vec![ZERO; 2 * max_s * max_s];
+                        let mut base = vec![ZERO; n_out * np];
+                        // One target line per (plane of the span, output).
+                        let mut targets: Vec<LineTarget> = Vec::with_capacity(window * n_out);
+                        for v in visits.iter() {
+                            let s = &sites[v.site];
+                            let (r, c) = (v.site / nc, v.site % nc);
+                            let mut any = false;
+                            for (o, out) in outs.iter().enumerate() {
+                                for k in 0..np {
+                                    let x = sources[out.source][[r, c, k]]
+                                        * out.channel_factors[c]
+                                        * s.phasor;
+                                    any |= x != ZERO;
+                                    base[o * np + k] = x;
                                 }
                             }
-                        },
-                    );
+                            if !any {
+                                continue;
+                            }
+                            targets.clear();
+                            for q in 0..spans[v.site].1 {
+                                let kw = self.plane_weight(s.w, p + q);
+                                let slot = (p + q) % window;
+                                for (o, x) in base.chunks(np).enumerate() {
+                                    let mut vals = [ZERO; 2];
+                                    for (d, x) in vals.iter_mut().zip(x) {
+                                        *d = x * kw;
+                                    }
+                                    targets.push(LineTarget { grid: slot * n_out + o, vals });
+                                }
+                            }
+                            let n = s.support;
+                            let x0 = s.x0.rem_euclid(px as i64) as usize;
+                            let n1 = n.min(px - x0);
+                            let block =
+                                self.kernel_blocks(simd, s, &hands, v.j0..v.j1, &mut block_scratch);
+                            for j in v.j0..v.j1 {
+                                let y = (s.y0 + j as i64).rem_euclid(py as i64) as usize
+                                    - b * BAND_ROWS;
+                                let at = (j - v.j0) * n..(j - v.j0 + 1) * n;
+                                let krows = [&block[0][at.clone()], &block[1][at]];
+                                let (head, tail) = (
+                                    [&krows[0][..n1], &krows[1][..n1]],
+                                    [&krows[0][n1..], &krows[1][n1..]],
+                                );
+                                // A footprint past the grid's last column wraps to its
+                                // first (the grid is periodic).
+                                spread_row(simd, &mut chunks, y * px + x0, &head[..np], &targets);
+                                if n1 < n {
+                                    spread_row(simd, &mut chunks, y * px, &tail[..np], &targets);
+                                }
+                            }
+                        }
+                    });
                 }
                 // Plane p is complete: no later sample starts at or below it.
                 let slot = p % window;
