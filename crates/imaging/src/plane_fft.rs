@@ -485,6 +485,13 @@ impl Screens {
         }
     }
 
+    /// Forget the plane held, so that the next [`Screens::plane`] computes its screen exactly,
+    /// as the first call of fresh screens does (for a caller that runs over the planes again:
+    /// the same values as [`Screens::new`] without rebuilding its per-pixel tables).
+    pub(crate) fn restart(&mut self) {
+        self.at = None;
+    }
+
     /// The screen of plane `p` (planes must be asked for in increasing order); the real
     /// correction when w is not stacked.
     pub(crate) fn plane(&mut self, p: usize) -> Screen<'_> {
@@ -712,6 +719,18 @@ mod tests {
                         assert!((got[ix * 12 + iy] - want).norm() < 1e-13 * corr[k].max(1.0));
                     }
                 }
+            }
+            // A restart (another pass over the planes) gives exactly what fresh screens give,
+            // also for the plane held before it (which had been reached by advancing).
+            let last = *order.last().unwrap();
+            for q in [3, last] {
+                screens.restart();
+                let Screen::Complex(got) = screens.plane(q) else { panic!("w is stacked") };
+                let got = got.to_vec();
+                let mut fresh = Screens::new(p, corr, sign);
+                let Screen::Complex(want) = fresh.plane(q) else { panic!("w is stacked") };
+                assert_eq!(got, want.to_vec(), "plane {q} after a restart");
+                screens.plane(q + 1);
             }
         }
     }
