@@ -392,8 +392,9 @@ mod tests {
         // ψ̂ by quadrature (`EsKernel::fourier`, itself checked against a 2000-node rule),
         // evaluated here pixel by pixel. The plan takes ψ̂ along w from a Chebyshev series
         // accepted at 1e-13 of ψ̂; on this range (ξ ≤ 1/4, 16 terms) it is closer, and this
-        // test holds the whole correction to 3e-14 (measured; product rounding included). Folded (shifted) and unfolded plans (shifted or not), square
-        // and non-square images, fields up to about 40° across (n − 1 down to −0.07).
+        // test holds the whole correction to 3e-14 (measured; product rounding included).
+        // Folded (shifted) and unfolded plans (shifted or not), square and non-square images,
+        // fields up to about 40° across (n − 1 down to −0.07).
         for (nx, ny, cell) in [(24, 18, 0.01), (40, 64, 0.012)] {
             let g = ImageGeometry::new(nx, ny, cell);
             let params = GridderParams::default();

@@ -86,7 +86,7 @@ fn plane_rows(
     n_groups: usize,
     group_of: impl Fn(usize) -> Option<usize>,
 ) -> Vec<Vec<Vec<bool>>> {
-    let mut starts = vec![vec![0i64; (py + 1) * n_planes]; n_groups];
+    let mut deltas = vec![vec![0i64; (py + 1) * n_planes]; n_groups];
     for (i, (s, &(lo, count))) in sites.iter().zip(spans).enumerate() {
         let Some(g) = group_of(i) else { continue };
         let y0 = s.y0.rem_euclid(py as i64) as usize;
@@ -99,14 +99,14 @@ fn plane_rows(
             [(y0, y0 + s.support), (0, 0)]
         };
         for plane in lo..lo + count {
-            let counts = &mut starts[g][plane * (py + 1)..(plane + 1) * (py + 1)];
+            let counts = &mut deltas[g][plane * (py + 1)..(plane + 1) * (py + 1)];
             for (a, b) in runs.into_iter().filter(|(a, b)| a < b) {
                 counts[a] += 1;
                 counts[b] -= 1;
             }
         }
     }
-    starts
+    deltas
         .into_iter()
         .map(|counts| {
             counts
