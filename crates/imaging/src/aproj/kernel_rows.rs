@@ -21,8 +21,22 @@ use num_complex::{Complex32, Complex64};
 pub(crate) enum RowSimd {
     /// Plain Rust on `Complex64`.
     Scalar,
-    /// 256-bit AVX2 with FMA (x86-64 only, checked at run time).
+    /// 256-bit AVX2 with FMA (x86-64 only, checked at run time): two lines per kernel load.
     Avx2Fma,
+    /// The same 256-bit loops with AVX-512VL's 32 vector registers: four lines per kernel load.
+    Avx512Vl,
+}
+
+#[cfg(target_arch = "x86_64")]
+fn has_avx2_fma() -> bool {
+    std::arch::is_x86_feature_detected!("avx2") && std::arch::is_x86_feature_detected!("fma")
+}
+
+#[cfg(target_arch = "x86_64")]
+fn has_avx512vl() -> bool {
+    has_avx2_fma()
+        && std::arch::is_x86_feature_detected!("avx512f")
+        && std::arch::is_x86_feature_detected!("avx512vl")
 }
 
 impl RowSimd {
@@ -30,9 +44,10 @@ impl RowSimd {
     pub(crate) fn detect() -> Self {
         #[cfg(target_arch = "x86_64")]
         {
-            if std::arch::is_x86_feature_detected!("avx2")
-                && std::arch::is_x86_feature_detected!("fma")
-            {
+            if has_avx512vl() {
+                return Self::Avx512Vl;
+            }
+            if has_avx2_fma() {
                 return Self::Avx2Fma;
             }
         }
@@ -45,10 +60,11 @@ impl RowSimd {
         let mut all = vec![Self::Scalar];
         #[cfg(target_arch = "x86_64")]
         {
-            if std::arch::is_x86_feature_detected!("avx2")
-                && std::arch::is_x86_feature_detected!("fma")
-            {
+            if has_avx2_fma() {
                 all.push(Self::Avx2Fma);
+            }
+            if has_avx512vl() {
+                all.push(Self::Avx512Vl);
             }
         }
         all
@@ -74,9 +90,9 @@ pub(crate) fn bilinear_row(
     let (a, b, c, d) = (&a[..n], &b[..n], &c[..n], &d[..n]);
     match simd {
         #[cfg(target_arch = "x86_64")]
-        // SAFETY: Avx2Fma is only ever constructed after detecting AVX2 and FMA; all slices
-        // have length n (checked by the slicing above).
-        RowSimd::Avx2Fma => unsafe { avx::bilinear(out, a, b, c, d, w) },
+        // SAFETY: both vector kinds are only ever constructed after detecting AVX2 and FMA;
+        // all slices have length n (checked by the slicing above).
+        RowSimd::Avx2Fma | RowSimd::Avx512Vl => unsafe { avx::bilinear(out, a, b, c, d, w) },
         _ => {
             for i in 0..n {
                 out[i] =
@@ -132,9 +148,12 @@ pub(crate) fn spread_row(
     }
     match simd {
         #[cfg(target_arch = "x86_64")]
-        // SAFETY: Avx2Fma is only constructed after detecting AVX2 and FMA; lengths checked
-        // above.
+        // SAFETY: Avx2Fma is only constructed after detecting AVX2 and FMA, Avx512Vl after
+        // detecting those and AVX-512F/VL; lengths checked above.
         RowSimd::Avx2Fma => unsafe { avx::spread(grids, at, krows, targets) },
+        #[cfg(target_arch = "x86_64")]
+        // SAFETY: as above.
+        RowSimd::Avx512Vl => unsafe { avx::spread_wide(grids, at, krows, targets) },
         _ => {
             for t in targets {
                 let line = &mut grids[t.grid][at..at + n];
@@ -185,9 +204,12 @@ pub(crate) fn dot_row(
     }
     match simd {
         #[cfg(target_arch = "x86_64")]
-        // SAFETY: Avx2Fma is only constructed after detecting AVX2 and FMA; lengths checked
-        // above.
+        // SAFETY: Avx2Fma is only constructed after detecting AVX2 and FMA, Avx512Vl after
+        // detecting those and AVX-512F/VL; lengths checked above.
         RowSimd::Avx2Fma => unsafe { avx::dot(grids, at, krows, lines, sums) },
+        #[cfg(target_arch = "x86_64")]
+        // SAFETY: as above.
+        RowSimd::Avx512Vl => unsafe { avx::dot_wide(grids, at, krows, lines, sums) },
         _ => {
             for (&g, s) in lines.iter().zip(sums.iter_mut()) {
                 let line = &grids[g][at..at + n];
@@ -278,40 +300,110 @@ mod avx {
         krows: &[&[Complex64]],
         targets: &[LineTarget],
     ) {
-        let n = krows[0].len();
-        let two = krows.len() == 2;
-        let p0 = krows[0].as_ptr() as *const f64;
-        let p1 = krows[krows.len() - 1].as_ptr() as *const f64;
-        for t in targets {
-            let pd = grids[t.grid].as_mut_ptr().add(at) as *mut f64;
-            let (a0, b0) = lanes(t.vals[0]);
-            let (a1, b1) = lanes(t.vals[1]);
-            let mut e = 0;
-            while e + 4 <= 2 * n {
-                let x0 = _mm256_loadu_pd(p0.add(e));
-                let mut d = _mm256_loadu_pd(pd.add(e));
-                d = _mm256_fmadd_pd(x0, a0, d);
-                d = _mm256_fmadd_pd(swap(x0), b0, d);
-                if two {
-                    let x1 = _mm256_loadu_pd(p1.add(e));
-                    d = _mm256_fmadd_pd(x1, a1, d);
-                    d = _mm256_fmadd_pd(swap(x1), b1, d);
-                }
-                _mm256_storeu_pd(pd.add(e), d);
-                e += 4;
+        spread_groups::<2>(grids, at, krows, targets)
+    }
+
+    /// [`spread`] in groups of four lines (AVX-512VL's 32 registers hold their lane
+    /// constants). Safety: as [`spread`], and AVX-512F and AVX-512VL present.
+    #[target_feature(enable = "avx2,fma,avx512f,avx512vl")]
+    pub(super) unsafe fn spread_wide(
+        grids: &mut [&mut [Complex64]],
+        at: usize,
+        krows: &[&[Complex64]],
+        targets: &[LineTarget],
+    ) {
+        spread_groups::<4>(grids, at, krows, targets)
+    }
+
+    /// The kernel row(s) at `p0` (and `p1`, the second hand, when `two`) of n values.
+    #[derive(Clone, Copy)]
+    struct Row {
+        p0: *const f64,
+        p1: *const f64,
+        n: usize,
+        two: bool,
+    }
+
+    impl Row {
+        fn of(krows: &[&[Complex64]]) -> Self {
+            Row {
+                p0: krows[0].as_ptr() as *const f64,
+                p1: krows[krows.len() - 1].as_ptr() as *const f64,
+                n: krows[0].len(),
+                two: krows.len() == 2,
             }
-            if e < 2 * n {
-                let lo = |v: __m256d| _mm256_castpd256_pd128(v);
-                let x0 = _mm_loadu_pd(p0.add(e));
-                let mut d = _mm_loadu_pd(pd.add(e));
-                d = _mm_fmadd_pd(x0, lo(a0), d);
-                d = _mm_fmadd_pd(_mm_permute_pd(x0, 0b01), lo(b0), d);
+        }
+    }
+
+    /// Targets in groups of G lines (then the rest one by one): each kernel vector (and its
+    /// swap) is loaded once per group instead of once per line.
+    #[inline(always)]
+    unsafe fn spread_groups<const G: usize>(
+        grids: &mut [&mut [Complex64]],
+        at: usize,
+        krows: &[&[Complex64]],
+        targets: &[LineTarget],
+    ) {
+        let row = Row::of(krows);
+        let groups = targets.chunks_exact(G);
+        let rest = groups.remainder();
+        for group in groups {
+            spread_group::<G>(grids, at, row, group);
+        }
+        for t in rest {
+            spread_group::<1>(grids, at, row, std::slice::from_ref(t));
+        }
+    }
+
+    #[inline(always)]
+    unsafe fn spread_group<const G: usize>(
+        grids: &mut [&mut [Complex64]],
+        at: usize,
+        row: Row,
+        group: &[LineTarget],
+    ) {
+        let Row { p0, p1, n, two } = row;
+        let mut pd = [std::ptr::null_mut::<f64>(); G];
+        let mut c = [[_mm256_setzero_pd(); 4]; G];
+        for g in 0..G {
+            pd[g] = grids[group[g].grid].as_mut_ptr().add(at) as *mut f64;
+            let (a0, b0) = lanes(group[g].vals[0]);
+            let (a1, b1) = lanes(group[g].vals[1]);
+            c[g] = [a0, b0, a1, b1];
+        }
+        let mut e = 0;
+        while e + 4 <= 2 * n {
+            let x0 = _mm256_loadu_pd(p0.add(e));
+            let s0 = swap(x0);
+            let x1 = _mm256_loadu_pd(p1.add(e));
+            let s1 = swap(x1);
+            for g in 0..G {
+                let mut d = _mm256_loadu_pd(pd[g].add(e));
+                d = _mm256_fmadd_pd(x0, c[g][0], d);
+                d = _mm256_fmadd_pd(s0, c[g][1], d);
                 if two {
-                    let x1 = _mm_loadu_pd(p1.add(e));
-                    d = _mm_fmadd_pd(x1, lo(a1), d);
-                    d = _mm_fmadd_pd(_mm_permute_pd(x1, 0b01), lo(b1), d);
+                    d = _mm256_fmadd_pd(x1, c[g][2], d);
+                    d = _mm256_fmadd_pd(s1, c[g][3], d);
                 }
-                _mm_storeu_pd(pd.add(e), d);
+                _mm256_storeu_pd(pd[g].add(e), d);
+            }
+            e += 4;
+        }
+        if e < 2 * n {
+            let lo = |v: __m256d| _mm256_castpd256_pd128(v);
+            let x0 = _mm_loadu_pd(p0.add(e));
+            let s0 = _mm_permute_pd(x0, 0b01);
+            let x1 = _mm_loadu_pd(p1.add(e));
+            let s1 = _mm_permute_pd(x1, 0b01);
+            for g in 0..G {
+                let mut d = _mm_loadu_pd(pd[g].add(e));
+                d = _mm_fmadd_pd(x0, lo(c[g][0]), d);
+                d = _mm_fmadd_pd(s0, lo(c[g][1]), d);
+                if two {
+                    d = _mm_fmadd_pd(x1, lo(c[g][2]), d);
+                    d = _mm_fmadd_pd(s1, lo(c[g][3]), d);
+                }
+                _mm_storeu_pd(pd[g].add(e), d);
             }
         }
     }
@@ -325,54 +417,116 @@ mod avx {
         lines: &[usize],
         sums: &mut [LaneSums],
     ) {
-        let n = krows[0].len();
-        let two = krows.len() == 2;
-        let p0 = krows[0].as_ptr() as *const f64;
-        let p1 = krows[krows.len() - 1].as_ptr() as *const f64;
-        for (&g, s) in lines.iter().zip(sums.iter_mut()) {
-            let pg = grids[g].as_ptr().add(at) as *const f64;
-            let mut a = _mm256_loadu_pd(s.p[0].as_ptr());
-            let mut b = _mm256_loadu_pd(s.q[0].as_ptr());
-            let mut c = _mm256_loadu_pd(s.p[1].as_ptr());
-            let mut d = _mm256_loadu_pd(s.q[1].as_ptr());
-            let mut e = 0;
-            while e + 4 <= 2 * n {
-                let gv = _mm256_loadu_pd(pg.add(e));
-                let x0 = _mm256_loadu_pd(p0.add(e));
-                a = _mm256_fmadd_pd(gv, x0, a);
-                b = _mm256_fmadd_pd(gv, swap(x0), b);
-                if two {
-                    let x1 = _mm256_loadu_pd(p1.add(e));
-                    c = _mm256_fmadd_pd(gv, x1, c);
-                    d = _mm256_fmadd_pd(gv, swap(x1), d);
-                }
-                e += 4;
+        dot_groups::<2>(grids, at, krows, lines, sums)
+    }
+
+    /// [`dot`] in groups of four lines (their 16 running sums fit AVX-512VL's 32 registers).
+    /// Safety: as [`spread_wide`].
+    #[target_feature(enable = "avx2,fma,avx512f,avx512vl")]
+    pub(super) unsafe fn dot_wide(
+        grids: &[&[Complex64]],
+        at: usize,
+        krows: &[&[Complex64]],
+        lines: &[usize],
+        sums: &mut [LaneSums],
+    ) {
+        dot_groups::<4>(grids, at, krows, lines, sums)
+    }
+
+    /// Lines in groups of G (then the rest one by one), as [`spread_groups`].
+    #[inline(always)]
+    unsafe fn dot_groups<const G: usize>(
+        grids: &[&[Complex64]],
+        at: usize,
+        krows: &[&[Complex64]],
+        lines: &[usize],
+        sums: &mut [LaneSums],
+    ) {
+        let row = Row::of(krows);
+        let sums = &mut sums[..lines.len()];
+        let groups = lines.chunks_exact(G).zip(sums.chunks_exact_mut(G));
+        for (group, gs) in groups {
+            dot_group::<G>(grids, at, row, group, gs);
+        }
+        let done = lines.len() / G * G;
+        for (g, s) in lines[done..].iter().zip(&mut sums[done..]) {
+            dot_group::<1>(grids, at, row, std::slice::from_ref(g), std::slice::from_mut(s));
+        }
+    }
+
+    /// The odd last cell of a row at `p` in the low two lanes (the high two zero, so that they
+    /// add nothing).
+    #[inline(always)]
+    unsafe fn load_last(p: *const f64) -> __m256d {
+        _mm256_insertf128_pd(_mm256_castpd128_pd256(_mm_loadu_pd(p)), _mm_setzero_pd(), 1)
+    }
+
+    /// One vector of every line of a group against the kernel vectors x0 and x1 (hand 1 only
+    /// when `two`).
+    #[inline(always)]
+    unsafe fn dot_step<const G: usize>(
+        acc: &mut [[__m256d; 4]; G],
+        x0: __m256d,
+        x1: __m256d,
+        gv: [__m256d; G],
+        two: bool,
+    ) {
+        let (s0, s1) = (swap(x0), swap(x1));
+        for (a, gv) in acc.iter_mut().zip(gv) {
+            a[0] = _mm256_fmadd_pd(gv, x0, a[0]);
+            a[1] = _mm256_fmadd_pd(gv, s0, a[1]);
+            if two {
+                a[2] = _mm256_fmadd_pd(gv, x1, a[2]);
+                a[3] = _mm256_fmadd_pd(gv, s1, a[3]);
             }
-            if e < 2 * n {
-                // The odd last cell in the low two lanes (the high two add zero).
-                let gv = _mm256_castpd128_pd256(_mm_loadu_pd(pg.add(e)));
-                let gv = _mm256_insertf128_pd(gv, _mm_setzero_pd(), 1);
-                let x0 = _mm256_insertf128_pd(
-                    _mm256_castpd128_pd256(_mm_loadu_pd(p0.add(e))),
-                    _mm_setzero_pd(),
-                    1,
-                );
-                a = _mm256_fmadd_pd(gv, x0, a);
-                b = _mm256_fmadd_pd(gv, swap(x0), b);
-                if two {
-                    let x1 = _mm256_insertf128_pd(
-                        _mm256_castpd128_pd256(_mm_loadu_pd(p1.add(e))),
-                        _mm_setzero_pd(),
-                        1,
-                    );
-                    c = _mm256_fmadd_pd(gv, x1, c);
-                    d = _mm256_fmadd_pd(gv, swap(x1), d);
-                }
+        }
+    }
+
+    #[inline(always)]
+    unsafe fn dot_group<const G: usize>(
+        grids: &[&[Complex64]],
+        at: usize,
+        row: Row,
+        group: &[usize],
+        sums: &mut [LaneSums],
+    ) {
+        let Row { p0, p1, n, two } = row;
+        let mut pg = [std::ptr::null::<f64>(); G];
+        // Per line: P and Q of hand 0, then of hand 1.
+        let mut acc = [[_mm256_setzero_pd(); 4]; G];
+        for g in 0..G {
+            pg[g] = grids[group[g]].as_ptr().add(at) as *const f64;
+            let s = &sums[g];
+            acc[g] = [
+                _mm256_loadu_pd(s.p[0].as_ptr()),
+                _mm256_loadu_pd(s.q[0].as_ptr()),
+                _mm256_loadu_pd(s.p[1].as_ptr()),
+                _mm256_loadu_pd(s.q[1].as_ptr()),
+            ];
+        }
+        let mut e = 0;
+        while e + 4 <= 2 * n {
+            let (x0, x1) = (_mm256_loadu_pd(p0.add(e)), _mm256_loadu_pd(p1.add(e)));
+            let mut gv = [_mm256_setzero_pd(); G];
+            for g in 0..G {
+                gv[g] = _mm256_loadu_pd(pg[g].add(e));
             }
-            _mm256_storeu_pd(s.p[0].as_mut_ptr(), a);
-            _mm256_storeu_pd(s.q[0].as_mut_ptr(), b);
-            _mm256_storeu_pd(s.p[1].as_mut_ptr(), c);
-            _mm256_storeu_pd(s.q[1].as_mut_ptr(), d);
+            dot_step(&mut acc, x0, x1, gv, two);
+            e += 4;
+        }
+        if e < 2 * n {
+            let (x0, x1) = (load_last(p0.add(e)), load_last(p1.add(e)));
+            let mut gv = [_mm256_setzero_pd(); G];
+            for g in 0..G {
+                gv[g] = load_last(pg[g].add(e));
+            }
+            dot_step(&mut acc, x0, x1, gv, two);
+        }
+        for (s, a) in sums.iter_mut().zip(&acc) {
+            _mm256_storeu_pd(s.p[0].as_mut_ptr(), a[0]);
+            _mm256_storeu_pd(s.q[0].as_mut_ptr(), a[1]);
+            _mm256_storeu_pd(s.p[1].as_mut_ptr(), a[2]);
+            _mm256_storeu_pd(s.q[1].as_mut_ptr(), a[3]);
         }
     }
 }
@@ -393,64 +547,81 @@ mod tests {
     fn vector_paths_match_the_complex_arithmetic() {
         // Reference: the textbook complex product and sum on Complex64, element by element.
         // Every implementation this CPU has is checked; lengths 1..=19 cover the 2-wide body
-        // and the odd tail, several registers per row, two lines per
-        // call at different offsets, and sums carried over from an earlier row. Spreading
-        // adds at most five terms per value, so 1e-14 is rounding (FMA changes the last bit);
-        // the dot products use the textbook rounding bound below.
+        // and the odd tail, several registers per row; 1..=9 lines per call (groups of two and
+        // four lines and the rest one by one), several on the same grid at different offsets,
+        // and sums carried over from an earlier row. Both use the textbook rounding bound of a
+        // sum of products.
         for simd in RowSimd::supported() {
             for n in 1..=19 {
                 let (k0, k1) = (values(n, 0.1), values(n, 0.7));
-                // Two grids of 2n + 3 values; the row goes to offset `at` of each.
-                let at = 3;
-                let grid_a = values(2 * n + 3, 1.9);
-                let grid_b = values(2 * n + 3, 2.3);
-                let v = [Complex64::new(0.3, -1.2), Complex64::new(-0.8, 0.4)];
-                let w = [Complex64::new(-0.5, 0.25), Complex64::new(1.1, 0.6)];
-                for h in 1..=2 {
-                    let krows: Vec<&[Complex64]> = [&k0[..], &k1[..]][..h].to_vec();
-                    let (mut ga, mut gb) = (grid_a.clone(), grid_b.clone());
-                    let targets = [
-                        LineTarget { grid: 1, vals: v },
-                        LineTarget { grid: 0, vals: w },
-                        LineTarget { grid: 1, vals: w },
-                    ];
-                    spread_row(simd, &mut [&mut ga[..], &mut gb[..]], at, &krows, &targets);
-                    for i in 0..2 * n + 3 {
-                        let (mut want_a, mut want_b) = (grid_a[i], grid_b[i]);
-                        if (at..at + n).contains(&i) {
-                            for (hh, kr) in krows.iter().enumerate() {
-                                let k = kr[i - at].conj();
-                                want_a += k * w[hh];
-                                want_b += k * v[hh] + k * w[hh];
+                for m in 1..=9 {
+                    // Three grids of 2n + 3 values; the row goes to offset `at` of each, and
+                    // line t goes to grid t mod 3 with its own sample values.
+                    let at = 3;
+                    let grids0: Vec<Vec<Complex64>> =
+                        (0..3).map(|g| values(2 * n + 3, 1.9 + 0.4 * g as f64)).collect();
+                    let vals: Vec<[Complex64; 2]> = (0..m)
+                        .map(|t| {
+                            let t = t as f64;
+                            [Complex64::new(0.3 - t, -1.2 + 0.5 * t), Complex64::new(-0.8, 0.4 * t)]
+                        })
+                        .collect();
+                    for h in 1..=2 {
+                        let krows: Vec<&[Complex64]> = [&k0[..], &k1[..]][..h].to_vec();
+                        let mut grids = grids0.clone();
+                        let targets: Vec<LineTarget> =
+                            (0..m).map(|t| LineTarget { grid: t % 3, vals: vals[t] }).collect();
+                        let mut lines: Vec<&mut [Complex64]> =
+                            grids.iter_mut().map(|g| &mut g[..]).collect();
+                        spread_row(simd, &mut lines, at, &krows, &targets);
+                        for (g, (got, before)) in grids.iter().zip(&grids0).enumerate() {
+                            for i in 0..2 * n + 3 {
+                                let (mut want, mut scale) = (before[i], before[i].norm());
+                                if (at..at + n).contains(&i) {
+                                    for t in targets.iter().filter(|t| t.grid == g) {
+                                        for (hh, kr) in krows.iter().enumerate() {
+                                            want += kr[i - at].conj() * t.vals[hh];
+                                            scale += kr[i - at].norm() * t.vals[hh].norm();
+                                        }
+                                    }
+                                }
+                                // At most 4 · 3 · 2 + 1 real roundings per value (Higham,
+                                // §3.1, as below).
+                                let err = (got[i] - want).norm();
+                                let bound = 25.0 * f64::EPSILON * 2.0 * scale;
+                                assert!(err < bound, "{simd:?} n={n} m={m} h={h} grid {g}");
                             }
                         }
-                        assert!((ga[i] - want_a).norm() < 1e-14, "{simd:?} n={n} h={h} a");
-                        assert!((gb[i] - want_b).norm() < 1e-14, "{simd:?} n={n} h={h} b");
-                    }
-                    // Two rows into the same sums (offsets at and at + 1), lines (1, 0).
-                    let grids = [&grid_a[..], &grid_b[..]];
-                    let mut sums = [LaneSums::default(); 2];
-                    dot_row(simd, &grids, at, &krows, &[1, 0], &mut sums);
-                    dot_row(simd, &grids, at + 1, &krows, &[1, 0], &mut sums);
-                    for (line, s) in [(&grid_b, &sums[0]), (&grid_a, &sums[1])] {
-                        for (hh, kr) in krows.iter().enumerate() {
-                            let want: Complex64 = (0..n)
-                                .map(|i| line[at + i] * kr[i] + line[at + 1 + i] * kr[i])
-                                .sum();
-                            // Rounding bound of a dot product of m real terms, m u Σ|x||y|
-                            // (Higham, Accuracy and Stability of Numerical Algorithms, 2nd
-                            // ed., §3.1), with m = 4 · 2n real products per complex sum.
-                            let scale: f64 = (0..n)
-                                .map(|i| {
-                                    (line[at + i].norm() + line[at + 1 + i].norm()) * kr[i].norm()
-                                })
-                                .sum();
-                            let bound = 8.0 * n as f64 * f64::EPSILON * 2.0 * scale;
-                            let err = (s.value(hh) - want).norm();
-                            assert!(err < bound, "{simd:?} n={n} h={h}: {err:e} ≥ {bound:e}");
+                        // Two rows into the same sums (offsets at and at + 1), line t reading
+                        // grid (t + 1) mod 3.
+                        let views: Vec<&[Complex64]> = grids0.iter().map(|g| &g[..]).collect();
+                        let which: Vec<usize> = (0..m).map(|t| (t + 1) % 3).collect();
+                        let mut sums = vec![LaneSums::default(); m];
+                        dot_row(simd, &views, at, &krows, &which, &mut sums);
+                        dot_row(simd, &views, at + 1, &krows, &which, &mut sums);
+                        for (&g, s) in which.iter().zip(&sums) {
+                            let line = &grids0[g];
+                            for (hh, kr) in krows.iter().enumerate() {
+                                let want: Complex64 = (0..n)
+                                    .map(|i| line[at + i] * kr[i] + line[at + 1 + i] * kr[i])
+                                    .sum();
+                                // Rounding bound of a dot product of m real terms, m u Σ|x||y|
+                                // (Higham, Accuracy and Stability of Numerical Algorithms, 2nd
+                                // ed., §3.1), with m = 4 · 2n real products per complex sum.
+                                let scale: f64 = (0..n)
+                                    .map(|i| {
+                                        (line[at + i].norm() + line[at + 1 + i].norm())
+                                            * kr[i].norm()
+                                    })
+                                    .sum();
+                                let bound = 8.0 * n as f64 * f64::EPSILON * 2.0 * scale;
+                                let err = (s.value(hh) - want).norm();
+                                assert!(err < bound, "{simd:?} n={n} m={m} h={h}: {err:e}");
+                            }
                         }
                     }
                 }
+                let grid_a = values(2 * n + 3, 1.9);
                 let mut out = vec![Complex64::new(0.0, 0.0); n];
                 let wts = [0.1, 0.2, 0.3, 0.4];
                 let narrow = |v: &[Complex64]| -> Vec<Complex32> {
