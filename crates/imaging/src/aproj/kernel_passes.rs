@@ -326,6 +326,27 @@ impl<B: VoltageBeam + ?Sized> KernelAProjection<'_, B> {
     }
 }
 
+/// Offset step (values) between the starts of the grids of a ring, and how many steps
+/// before they repeat.
+const STAGGER: usize = 16;
+const STAGGERS: usize = 16;
+
+/// Buffer length for a grid of `len` values at any of the staggered offsets.
+fn staggered_len(len: usize) -> usize {
+    len + STAGGER * (STAGGERS - 1)
+}
+
+/// Grid i of a ring as `len` values from offset (i mod STAGGERS) · STAGGER of its buffer.
+fn stagger(bufs: &mut [Vec<Complex64>], len: usize) -> Vec<&mut [Complex64]> {
+    bufs.iter_mut()
+        .enumerate()
+        .map(|(i, b)| {
+            let at = (i % STAGGERS) * STAGGER;
+            &mut b[at..at + len]
+        })
+        .collect()
+}
+
 /// Memory for the sliding window of w-plane grids (W per image); more images than fit are done
 /// in several passes.
 const WINDOW_BYTES: usize = 1 << 30;
@@ -372,7 +393,8 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
             let mut images_t = vec![vec![0.0; g.nx * g.ny]; n_out];
             let mut fresh = true; // no plane added to images_t yet
                                   // Slot-major ring: grid of plane p, output o at ring[(p mod W) · n_out + o].
-            let mut ring = self.pool.take(window * n_out, px * py);
+            let mut ring_bufs = self.pool.take(window * n_out, staggered_len(px * py));
+            let mut ring = stagger(&mut ring_bufs, px * py);
             let mut touched = vec![false; window];
             for (p, bucket) in buckets.iter().enumerate() {
                 if !bucket.is_empty() {
@@ -496,7 +518,8 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
                 fresh = false;
             }
             // Every slot written was transformed and left zero again.
-            self.pool.give_back(ring, true);
+            drop(ring);
+            self.pool.give_back(ring_bufs, true);
             for (image, image_t) in images[first..first + n_out].iter_mut().zip(&images_t) {
                 let img = image.as_slice_mut().expect("fresh array is contiguous");
                 self.plan.untranspose_into(image_t, img);
@@ -581,7 +604,8 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
             screens.restart();
             // Stale values are never read: a plane's transform writes every grid row that
             // its samples read (`plane_rows`).
-            let mut ring = self.pool.take_any(window * n_img, px * py);
+            let mut ring_bufs = self.pool.take_any(window * n_img, staggered_len(px * py));
+            let mut ring = stagger(&mut ring_bufs, px * py);
             let mut holds = vec![usize::MAX; window];
             for (p, bucket) in buckets.iter().enumerate() {
                 if bucket.is_empty() {
@@ -611,7 +635,7 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
                         self.plan.plane_from_image(image_t, screen, &image_rows, grid);
                     }
                 }
-                let ring: Vec<&[Complex64]> = ring.iter().map(|g| g.as_slice()).collect();
+                let ring: Vec<&[Complex64]> = ring.iter().map(|g| &g[..]).collect();
                 let ring = &ring[..];
                 let values: Vec<[Complex64; 2]> = bucket
                     .par_chunks(DEGRID_SITES)
@@ -685,7 +709,8 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
                     }
                 }
             }
-            self.pool.give_back(ring, false);
+            drop(ring);
+            self.pool.give_back(ring_bufs, false);
         }
         Ok(Array3::from_shape_vec((nr, nc, np), out).expect("sized above"))
     }
