@@ -71,7 +71,7 @@ pub(crate) fn smooth_size(n: usize) -> usize {
     loop {
         let mut r = m;
         for p in [2, 3, 5] {
-            while r % p == 0 {
+            while r.is_multiple_of(p) {
                 r /= p;
             }
         }

@@ -233,7 +233,7 @@ mod tests {
             let cols: Vec<usize> = (0..3).filter(|&r| r != j).collect();
             let minor = c(rows[0], cols[0]) * c(rows[1], cols[1])
                 - c(rows[0], cols[1]) * c(rows[1], cols[0]);
-            if (i + j) % 2 == 0 {
+            if (i + j).is_multiple_of(2) {
                 minor
             } else {
                 -minor

@@ -362,11 +362,11 @@ pub fn good_fft_size(n: usize) -> usize {
     loop {
         let mut k = m;
         for p in [2, 3, 5] {
-            while k % p == 0 {
+            while k.is_multiple_of(p) {
                 k /= p;
             }
         }
-        if k == 1 && m % 2 == 0 {
+        if k == 1 && m.is_multiple_of(2) {
             return m;
         }
         m += 1;

@@ -91,7 +91,7 @@ impl ImagingConfig {
 
     pub(crate) fn check(&self, c: &mut Checker) {
         let n = self.image_size_px;
-        if !(16..=32768).contains(&n) || n % 2 != 0 {
+        if !(16..=32768).contains(&n) || !n.is_multiple_of(2) {
             c.fail("imaging.image_size_px", n, "must be even and within 16..=32768 (pixels)");
         }
         c.positive("imaging.cell_arcsec", self.cell_arcsec, "arcsec");

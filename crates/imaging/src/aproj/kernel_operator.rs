@@ -323,9 +323,10 @@ pub fn kernel_table_bytes<B: VoltageBeam + ?Sized>(
 /// 1.5e-5 at O = 32 (falling as 1/O²), nearest 1.4e-2 at O = 16 (as 1/O). The tables are
 /// stored in single precision (rounding 6e-8 of the peak); all sums are in f64.
 ///
-/// Memory while running: besides the tables, gridding holds W padded grids per output image
-/// (a sliding window over the w-planes, W = the ES support, 8 at ε = 1e-7) and degridding W per
-/// model image; outputs beyond 1 GiB of such grids are done in further passes.
+/// Memory while running: besides the tables, gridding holds W + 1 padded grids per output image
+/// (a sliding window over the w-planes, W = the ES support, 8 at ε = 1e-7, and the plane being
+/// transformed) and degridding W per model image; outputs beyond 1 GiB of such grids are done
+/// in further passes.
 ///
 /// Parallelism and determinism: gridding splits the padded grid into bands of rows, each band
 /// adding its samples in visibility order; degridding splits rows. Results are bitwise

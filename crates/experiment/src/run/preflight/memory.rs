@@ -60,7 +60,7 @@ impl MemoryEstimate {
 /// - Grids: the larger of the spectral-PSF pass (one padded complex grid per output per rayon
 ///   thread, 2N − 1 outputs on a grid padded from twice the image size) and, for A-projection,
 ///   the kernel operator's working set while it grids or degrids the N Taylor images: a sliding
-///   window of W padded complex grids per image (W the ES kernel support; images beyond 1 GiB
+///   window of W + 1 padded complex grids per image (W the ES kernel support; images beyond 1 GiB
 ///   of such grids go in further passes) and the placement of every (row, channel) sample on
 ///   the kernel lattice (table indices, footprint corner, sub-offsets, fractions, support and
 ///   w-plane coordinate, with its plane span and bucket index: 112 bytes).
@@ -150,9 +150,10 @@ pub fn estimate_memory(config: &Config, antennas: Option<u64>, threads: usize) -
             let taylor_images = (8.0 * terms + 8.0) * n * n * 8.0;
             let a_working_set = match s.gridding {
                 Gridding::A | Gridding::WidebandA => {
-                    // The kernel operator's sliding window of W padded grids per image, the N
-                    // Taylor images per pass while they fit in 1 GiB, and its sample placement.
-                    let window = es_support * 16.0 * pad * pad;
+                    // The kernel operator's sliding window of W + 1 padded grids per image while
+                    // gridding (W while degridding), the N Taylor images per pass while they fit
+                    // in 1 GiB, and its sample placement.
+                    let window = (es_support + 1.0) * 16.0 * pad * pad;
                     let per_pass = (A_WINDOW_PASS_BYTES / window).floor().clamp(1.0, terms);
                     per_pass * window + samples_per_hand * A_SITE_BYTES
                 }
