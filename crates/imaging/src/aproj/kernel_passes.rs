@@ -401,8 +401,9 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
             let n_out = outs.len();
             screens.restart();
             let mut images_t = vec![vec![0.0; g.nx * g.ny]; n_out];
-            let mut fresh = true; // no plane added to images_t yet
-                                  // Slot-major ring: grid of plane p, output o at ring[(p mod W) · n_out + o].
+            // No plane added to images_t yet.
+            let mut fresh = true;
+            // Slot-major ring: the grid of plane p and output o is ring[(p mod slots) · n_out + o].
             let mut ring_bufs = self.pool.take(slots * n_out, staggered_len(px * py));
             let mut ring = stagger(&mut ring_bufs, px * py);
             let mut touched = vec![false; slots];
