@@ -354,8 +354,8 @@ fn stagger(bufs: &mut [Vec<Complex64>], len: usize) -> Vec<&mut [Complex64]> {
         .collect()
 }
 
-/// Memory for the sliding window of w-plane grids (W or W + 1 per image); more images than fit are done
-/// in several passes.
+/// Memory for the sliding window of w-plane grids (W or W + 1 per image); more images than fit
+/// are done in several passes.
 const WINDOW_BYTES: usize = 1 << 30;
 
 impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {

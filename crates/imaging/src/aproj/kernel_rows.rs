@@ -14,7 +14,9 @@
 //! × 2 images = 16 lines per row) this took gridding from 134.7 to 104 ms and degridding from
 //! 143.6 to 96 ms on two threads. Timed alone on 16 lines held in the first-level cache (a
 //! scratch loop, not kept), the spreading row loop reached about 47 GFLOP/s per core in groups of
-//! four and 34 one line at a time: 38 and 27 % of the per-core peak. 512-bit vectors (masked tails) gave nothing over the grouped 256-bit loops.
+//! four and 34 one line at a time: 39 and 28 % of the 119 GFLOP/s that the `fma_peak` benchmark
+//! measures on one core. 512-bit vectors (masked tails) gave nothing over the grouped 256-bit
+//! loops.
 //!
 //! Each loop has a scalar path and vector paths picked at run time ([`RowSimd::detect`]). The
 //! vector forms keep the complex numbers interleaved (re, im) and write a complex product
