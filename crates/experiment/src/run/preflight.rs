@@ -85,11 +85,12 @@ impl PreflightReport {
         );
         let _ = writeln!(
             s,
-            "memory       about {:.2} GiB at peak ({:.2} GiB visibilities and working copies; largest strategy {:.2} GiB; grids counted for {} threads){}",
+            "memory       about {:.2} GiB at peak ({:.2} GiB visibilities and working copies; largest strategy {:.2} GiB; grids counted for {} threads; {:.2} GiB allowance for the allocator){}",
             m.total_bytes as f64 / GIB,
             m.visibilities_bytes as f64 / GIB,
             m.strategies.iter().map(StrategyMemory::total_bytes).max().unwrap_or(0) as f64 / GIB,
             m.threads,
+            m.allowance_bytes as f64 / GIB,
             match self.available_memory_bytes {
                 Some(a) => format!(", {:.2} GiB available", a as f64 / GIB),
                 None => String::new(),
