@@ -46,3 +46,39 @@ impl<'a, T> Disjoint<'a, T> {
         unsafe { &mut *self.ptr.add(at) }
     }
 }
+
+impl Disjoint<'_, num_complex::Complex64> {
+    /// Writes `value` at `at` past the caches (a non-temporal store) where the CPU has one and
+    /// the position is 16-byte aligned, else as a plain write; call [`Self::fence`] before the
+    /// task ends so that such writes are ordered before whatever reads them next.
+    ///
+    /// # Safety
+    /// No other thread may access position `at` during the parallel loop.
+    #[inline(always)]
+    pub(crate) unsafe fn write_streaming(&self, at: usize, value: num_complex::Complex64) {
+        // SAFETY: exclusive access to `at` is the caller's promise; `slot` checks the bounds.
+        let slot = unsafe { self.slot(at) };
+        #[cfg(target_arch = "x86_64")]
+        if (slot as *mut num_complex::Complex64 as usize).is_multiple_of(16) {
+            // SAFETY: SSE2 is part of x86-64; the address is 16-byte aligned (checked) and
+            // holds two f64 (re, im) that the caller alone accesses.
+            unsafe {
+                use std::arch::x86_64::{_mm_set_pd, _mm_stream_pd};
+                let p = slot as *mut num_complex::Complex64 as *mut f64;
+                _mm_stream_pd(p, _mm_set_pd(value.im, value.re));
+            }
+            return;
+        }
+        *slot = value;
+    }
+
+    /// Orders this thread's earlier [`Self::write_streaming`] stores before its later ones.
+    #[inline(always)]
+    pub(crate) fn fence(&self) {
+        #[cfg(target_arch = "x86_64")]
+        // SAFETY: SSE is part of x86-64; a store fence has no other effect.
+        unsafe {
+            std::arch::x86_64::_mm_sfence()
+        };
+    }
+}

@@ -350,7 +350,7 @@ impl ImagingOperator for GridPlan {
                 layout.mark_rows(plane, w, &mut rows);
                 let screen = screens.plane(p);
                 for (image_t, grid) in images_t.iter().zip(grids.iter_mut()) {
-                    self.plane_from_image(image_t, screen, &rows, grid);
+                    self.plane_from_image(image_t, screen, &rows, grid, self.n_w_planes() > 1);
                 }
                 self.interpolate_plane(
                     &samples,

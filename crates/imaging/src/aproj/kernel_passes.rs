@@ -665,7 +665,7 @@ impl<B: VoltageBeam + ?Sized> ImagingOperator for KernelAProjection<'_, B> {
                             continue;
                         }
                         let grid = &mut ring[slot * n_img + t];
-                        self.plan.plane_from_image(image_t, screen, &image_rows, grid);
+                        self.plan.plane_from_image(image_t, screen, &image_rows, grid, false);
                     }
                 }
                 let ring: Vec<&[Complex64]> = ring.iter().map(|g| &g[..]).collect();
