@@ -72,7 +72,7 @@ pub use operator::{build_operator, check_strategies, w_term_of};
 pub use pbcor::{beam_validity, divide_beam_taylor};
 pub use preflight::{
     available_memory_bytes, estimate_memory, kernel_table_memory, preflight, preflight_with_memory,
-    KernelTableMemory, MemoryEstimate, Preflight, PreflightReport, StrategyMemory,
+    KernelTableMemory, MemoryEstimate, Preflight, PreflightReport, StrategyMemory, ALLOCATOR_SHARE,
     PROBE_ALL_BINS_MAX_TABLES,
 };
 pub use quick_estimate::{QuickEstimate, SymmetrizedBeam};

@@ -38,7 +38,7 @@ mod memory;
 
 pub use memory::{
     estimate_memory, kernel_table_memory, KernelTableMemory, MemoryEstimate, StrategyMemory,
-    PROBE_ALL_BINS_MAX_TABLES,
+    ALLOCATOR_SHARE, PROBE_ALL_BINS_MAX_TABLES,
 };
 use memory::{kernel_tables_problem, memory_problem};
 

@@ -25,7 +25,7 @@ pub struct OperatorResiduals<'a> {
     /// flat-noise frame. None = 1.
     normalisation: Option<Array2<f64>>,
     /// Multi-term A-projection: predict the model channel by channel (see
-    /// [`super::channel_model`]) instead of as Taylor images × g. None = Taylor images.
+    /// `run::channel_model`) instead of as Taylor images × g. None = Taylor images.
     channels: Option<&'a ChannelModel>,
 }
 
@@ -68,7 +68,7 @@ impl<'a> OperatorResiduals<'a> {
     }
 
     /// Predicts the model's sky channel by channel with `channels` (the minor cycle's Taylor
-    /// model is the apparent spectrum in the flat-noise frame; see [`super::channel_model`])
+    /// model is the apparent spectrum in the flat-noise frame; see `run::channel_model`)
     /// instead of degridding model × g as Taylor images. The residuals are unchanged.
     pub fn with_channel_model(mut self, channels: &'a ChannelModel) -> Self {
         self.channels = Some(channels);

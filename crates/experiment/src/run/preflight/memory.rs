@@ -33,7 +33,7 @@ const A_SITE_BYTES: f64 = 112.0;
 pub const ALLOCATOR_SHARE: f64 = 0.2;
 
 /// `counted` bytes with the allocator allowance ([`ALLOCATOR_SHARE`]) on top.
-pub fn with_allowance(counted: u64) -> u64 {
+fn with_allowance(counted: u64) -> u64 {
     (counted as f64 * (1.0 + ALLOCATOR_SHARE)) as u64
 }
 
@@ -202,7 +202,7 @@ pub fn estimate_memory(config: &Config, antennas: Option<u64>, threads: usize) -
 
 /// The A-kernel tables strategy `index` (gridding `"a"` or `"wideband-a"`) will allocate on
 /// `observation`'s PA bins: the imaging beam built and binned as the runner builds it, the
-/// operator's parameters from [`a_operator_params`], and the imaging crate's
+/// operator's parameters from `run::aproj::a_operator_params`, and the imaging crate's
 /// [`kernel_table_bytes`], which probes every kernel's support (one small FFT each) and counts
 /// (O + 1)² S² · 8 bytes per table — exactly what the operator allocates. Above
 /// [`PROBE_ALL_BINS_MAX_TABLES`] tables only the first PA bin is probed and its tables are
