@@ -230,7 +230,7 @@ const CASES: &[Case] = &[
     Case {
         file: "memory_image_too_large",
         at: "31:17",
-        fragments: &["imaging.image_size_px = 32768: the run would need about", "GiB available (MemAvailable): reduce it with a smaller imaging.image_size_px"],
+        fragments: &["imaging.image_size_px = 32768: the run would need about", "GiB allowance for the allocator (20 % of the rest)", "GiB available (MemAvailable): reduce it with a smaller imaging.image_size_px"],
     },
     Case {
         file: "memory_too_many_visibilities",

@@ -37,6 +37,12 @@ fn with_allowance(counted: u64) -> u64 {
     (counted as f64 * (1.0 + ALLOCATOR_SHARE)) as u64
 }
 
+/// The counted bytes that fit in `available` once the allowance is on top (the inverse of
+/// [`with_allowance`]).
+fn within_allowance(available: u64) -> f64 {
+    available as f64 / (1.0 + ALLOCATOR_SHARE)
+}
+
 /// What a run will hold in memory at its peak, bytes, by part.
 ///
 /// Model (from how the runner and the imaging crate allocate): the visibility set (complex128
@@ -321,8 +327,9 @@ pub(super) fn memory_problem(config: &Config, m: &MemoryEstimate, available: u64
 
 /// The refusal for kernel tables above the operator's cap or above what `available` bytes
 /// leave beside `rest` (everything else the run holds while this strategy runs), the
-/// allocator allowance counted on both; None when they fit. Names `pa_bin_deg` and `kernel_oversampling`, their values, and the values at which
-/// the tables would fit (tables scale with the PA-bin count and as (O + 1)²).
+/// allocator allowance counted on both; None when they fit. Names `pa_bin_deg` and
+/// `kernel_oversampling`, their values, and the values at which the tables would fit (tables
+/// scale with the PA-bin count and as (O + 1)²).
 pub(super) fn kernel_tables_problem(
     config: &Config,
     index: usize,
@@ -333,8 +340,7 @@ pub(super) fn kernel_tables_problem(
     let strategy = &config.strategy[index];
     let bytes = tables.estimate.bytes as f64;
     let cap = tables.max_table_bytes as f64;
-    let usable = |a: u64| a as f64 / (1.0 + ALLOCATOR_SHARE);
-    let left = available.map(|a| (usable(a) - rest as f64).max(0.0));
+    let left = available.map(|a| (within_allowance(a) - rest as f64).max(0.0));
     let room = left.map_or(cap, |l| l.min(cap));
     if bytes <= room {
         return None;
@@ -345,7 +351,7 @@ pub(super) fn kernel_tables_problem(
             "this machine's {:.2} GiB available (MemAvailable; {:.2} GiB after the {:.0} % \
              allowance for the allocator) less {:.2} GiB for the rest of the run",
             a as f64 / GIB,
-            usable(a) / GIB,
+            within_allowance(a) / GIB,
             100.0 * ALLOCATOR_SHARE,
             rest as f64 / GIB
         )
